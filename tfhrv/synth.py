@@ -57,7 +57,7 @@ def fgn(n: int, hurst: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
     Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95-101.
     doi:10.1093/biomet/74.1.95
     Wood ATA, Chan G. Simulation of stationary Gaussian processes in [0,1]^d.
-    J Comput Graph Stat 1994;3:409-432. doi:10.1080/10618600.1994.10474655
+    J Comput Graph Stat 1994;3:409-432.
 
     Examples
     --------
