@@ -80,7 +80,8 @@ class Recording:
         if not np.all(np.isfinite(t)) or not np.all(np.isfinite(rr)):
             raise ValueError("beat times and intervals must be finite")
         if np.any(rr <= 0):
-            raise ValueError(f"intervals must be > 0 ms (first bad index {int(np.argmax(rr <= 0))})")
+            first = int(np.argmax(rr <= 0))
+            raise ValueError(f"intervals must be > 0 ms (first bad index {first})")
         if t[0] < 0:
             raise ValueError("beat times must be >= 0 s")
         steps = np.diff(t)

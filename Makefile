@@ -1,0 +1,24 @@
+# Quick start targets: each creates its own virtual environment in .venv on first use.
+PYTHON ?= python3
+VENV ?= .venv
+PY := $(VENV)/bin/python
+
+.PHONY: demo test bench clean-venv
+
+$(VENV)/.installed: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e ".[test]"
+	touch $@
+
+demo: $(VENV)/.installed
+	$(VENV)/bin/tfhrv inspect demo_data/sw01_day_worker.csv.gz
+
+test: $(VENV)/.installed
+	$(PY) -m pytest -q
+
+bench: $(VENV)/.installed
+	for f in benchmarks/bench_*.py; do $(PY) $$f || exit 1; done
+
+clean-venv:
+	rm -rf $(VENV)

@@ -1,0 +1,70 @@
+"""The command line: help on every verb, readable output, one-line errors with status 2."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from tfhrv.cli import build_parser, main
+
+
+def _verbs() -> list[str]:
+    parser = build_parser()
+    sub = next(a for a in parser._actions if a.dest == "verb")
+    return sorted(sub.choices)
+
+
+@pytest.mark.parametrize("verb", _verbs())
+def test_every_verb_has_help(verb, capsys):
+    with pytest.raises(SystemExit) as info:
+        main([verb, "--help"])
+    assert info.value.code == 0
+    out = capsys.readouterr().out
+    assert "usage: tfhrv " + verb in out
+    assert "research use" in out.lower()
+
+
+def test_inspect_prints_quality(tmp_path, capsys):
+    p = tmp_path / "r.csv"
+    p.write_text("# start: 2026-03-02T08:00:00\nrr_ms,label\n" + "800,N\n" * 3000 + "500,V\n"
+                 + "1100,N\n" + "800,N\n" * 3000)
+    assert main(["inspect", str(p)]) == 0
+    out = capsys.readouterr().out
+    assert "2026-03-02T08:00:00" in out
+    assert "6,002 read" in out and "non sinus end 1" in out
+    assert main(["inspect", str(p), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["quality"]["n_intervals"] == 6002
+    assert data["start_kind"] == "timestamp"
+
+
+@pytest.mark.parametrize(
+    ("content", "fragment"),
+    [
+        (None, "no such file"),
+        (b"", "is empty"),
+        (b"800\nabc\n", "line 2: 'abc' in the intervals is not a number"),
+    ],
+)
+def test_errors_are_one_line_status_2_no_output(tmp_path, capsys, content, fragment):
+    p = tmp_path / "bad.txt"
+    if content is not None:
+        p.write_bytes(content)
+    before = sorted(tmp_path.iterdir())
+    assert main(["inspect", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and err.startswith("tfhrv: error: ")
+    assert fragment in err and "Traceback" not in err
+    assert sorted(tmp_path.iterdir()) == before
+
+
+def test_installed_entry_point_runs(tmp_path):
+    p = tmp_path / "x.txt"
+    p.write_text("40\n41\n")
+    proc = subprocess.run([sys.executable, "-m", "tfhrv.cli", "inspect", str(p)],
+                          capture_output=True, text=True, check=False)
+    assert proc.returncode == 2
+    assert "--units" in proc.stderr and "Traceback" not in proc.stderr
