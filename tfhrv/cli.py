@@ -12,14 +12,11 @@ import sys
 import warnings
 from collections.abc import Sequence
 
+from tfhrv._caution import CAUTION
 from tfhrv.errors import InsufficientDataError, RecordFormatError, TfhrvWarning
 
 __all__ = ["main"]
 
-CAUTION = (
-    "For research use only; not a medical device and not for diagnosis. Local regulations "
-    "and licensed clinical judgement prevail."
-)
 
 
 def _add_reader_options(p: argparse.ArgumentParser) -> None:

@@ -1,0 +1,291 @@
+"""Which estimator is primary for a window, and whether a record is fit for an FFT slope.
+
+The decision table lives here and only here; the README, ``tfhrv inspect --explain`` and
+the report print it from :data:`DECISION_TABLE`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+
+__all__ = [
+    "DECISION_TABLE",
+    "ESTIMATORS",
+    "Choice",
+    "FitnessThresholds",
+    "Verdict",
+    "choose_estimator",
+    "explain_table",
+    "fitness_verdict",
+]
+
+Estimator = Literal["spectral", "wavelet", "dfa", "none"]
+#: Estimator codes in the order used for ``flag_values`` in the DataTree.
+ESTIMATORS: tuple[str, ...] = ("none", "spectral", "wavelet", "dfa")
+
+
+@dataclass(frozen=True, slots=True)
+class _Rule:
+    primary: str
+    fallback: str
+    reason: str
+
+
+#: category -> (primary estimator, fallback when the window cannot support the primary,
+#: reason).  Sources: Eke et al. 2002 (classify noise vs motion before choosing a method);
+#: Abry & Veitch 1998 (wavelets with N vanishing moments ignore polynomial trends of degree
+#: < N); Hu et al. 2001 and Kantelhardt et al. 2001 (DFA of order q removes polynomial trends
+#: of order q - 1 and copes with non-stationary increments); Kwiatkowski et al. 1992 and
+#: Said & Dickey 1984 for the ADF/KPSS reading (see tfhrv.stationarity).
+DECISION_TABLE: dict[str, _Rule] = {
+    "stationary": _Rule(
+        "spectral", "wavelet",
+        "stationary (KPSS keeps level stationarity, no drift beyond surrogates): the "
+        "periodogram slope's assumptions hold",
+    ),
+    "trend": _Rule(
+        "wavelet", "dfa",
+        "trend-stationary: a trend leaks into the low-frequency periodogram; wavelets with 3 "
+        "vanishing moments ignore polynomial trends of degree < 3",
+    ),
+    "unit-root": _Rule(
+        "dfa", "wavelet",
+        "difference-stationary (fBm-like, unit root not rejected): the periodogram of a motion "
+        "is biased by leakage; DFA of the profile has no stationarity assumption",
+    ),
+    "drifting": _Rule(
+        "wavelet", "dfa",
+        "mean or SD drifts beyond what surrogates with the same spectrum show: local wavelet "
+        "energies are robust to slow drift, the periodogram is not",
+    ),
+    "inconclusive": _Rule(
+        "dfa", "wavelet",
+        "the unit-root and stationarity tests disagree or lack power: DFA makes the fewest "
+        "assumptions",
+    ),
+    "too-short": _Rule("none", "none", "too few NN intervals for any estimator"),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Choice:
+    """The primary estimator of one window and why."""
+
+    estimator: str
+    reason: str
+
+
+def choose_estimator(category: str, /, *, available: frozenset[str] | set[str]) -> Choice:
+    """Pick the primary estimator for a window.
+
+    Parameters
+    ----------
+    category : str
+        Stationarity category of the window (see :data:`tfhrv.stationarity.CATEGORIES`).
+    available : set of str
+        Estimators that produced a finite exponent on this window.
+
+    Returns
+    -------
+    Choice
+
+    Examples
+    --------
+    >>> choose_estimator("trend", available={"spectral", "wavelet", "dfa"}).estimator
+    'wavelet'
+    >>> choose_estimator("stationary", available={"wavelet", "dfa"}).estimator
+    'wavelet'
+    """
+    if category not in DECISION_TABLE:
+        raise ValueError(f"category must be one of {tuple(DECISION_TABLE)!r}, got {category!r}")
+    rule = DECISION_TABLE[category]
+    for est, note in ((rule.primary, ""), (rule.fallback, " (primary not computable here)")):
+        if est in available:
+            return Choice(est, rule.reason + note)
+    for est in ("dfa", "wavelet"):
+        if est in available:
+            return Choice(est, rule.reason + f"; neither {rule.primary} nor {rule.fallback} "
+                          "computable here")
+    return Choice("none", rule.reason if category == "too-short"
+                  else "no estimator could be computed on this window")
+
+
+def explain_table() -> str:
+    """The decision table as aligned text (for ``--explain``, the README and the report)."""
+    rows = [("category", "primary", "fallback", "reason")]
+    rows += [(c, r.primary, r.fallback, r.reason) for c, r in DECISION_TABLE.items()]
+    w0 = max(len(r[0]) for r in rows)
+    w1 = max(len(r[1]) for r in rows)
+    w2 = max(len(r[2]) for r in rows)
+    return "\n".join(f"{a:<{w0}}  {b:<{w1}}  {c:<{w2}}  {d}" for a, b, c, d in rows)
+
+
+@dataclass(frozen=True, slots=True)
+class FitnessThresholds:
+    """Thresholds of the whole-record FFT-slope fitness verdict.
+
+    Defaults and their sources:
+
+    - ``min_cycles`` = 10 and ``caution_cycles`` = 5: the record should span at least 10
+      periods of the lowest fitted frequency (Task Force 1996 asks for about 10 periods
+      of a band's lower limit, from memory); between 5 and 10 is a caution, below 5 unfit.
+    - ``min_coverage`` = 0.75 analysable share (the Task Force 1996 asks for >= 18 h of
+      analysable data in a 24-h record, from memory).
+    - ``max_gap_s`` = 1800 s unfit, 600 s caution (common practice: a gap longer than
+      one period of the highest fitted frequency, 100 s, distorts the band; a 30-min gap
+      removes more than a fifth of a 2.8-h period).
+    - ``max_ectopic`` = 0.10 unfit, 0.01 caution (Peltola et al. 2004 found that even
+      0.25 % unedited premature beats change alpha1; edited records tolerate more;
+      common practice).
+    - ``max_nonstationary`` = 0.5 unfit, 0.25 caution share of long-tier windows whose
+      category is not stationary (common practice).
+    - ``min_r2`` = 0.9 and ``curvature_alpha`` = 0.01 for log-log linearity (common practice).
+    - ``max_beta_disagreement`` = 0.3 between the FFT beta and the wavelet beta (about
+      three times the calibrated SE of a 24-h estimate; common practice).
+    """
+
+    min_cycles: float = 10.0
+    caution_cycles: float = 5.0
+    min_coverage: float = 0.75
+    caution_coverage: float = 0.9
+    max_gap_s: float = 1800.0
+    caution_gap_s: float = 600.0
+    max_ectopic: float = 0.10
+    caution_ectopic: float = 0.01
+    max_nonstationary: float = 0.5
+    caution_nonstationary: float = 0.25
+    min_r2: float = 0.9
+    curvature_alpha: float = 0.01
+    max_beta_disagreement: float = 0.3
+
+
+@dataclass(frozen=True, slots=True)
+class Verdict:
+    """Whole-record FFT-slope fitness: ``fit``, ``fit-with-cautions`` or ``unfit``."""
+
+    verdict: str
+    reasons: tuple[str, ...]
+    cautions: tuple[str, ...]
+    recommended: str
+    checks: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict:
+        """JSON-friendly form."""
+        return {
+            "verdict": self.verdict,
+            "reasons": list(self.reasons),
+            "cautions": list(self.cautions),
+            "recommended_estimator": self.recommended,
+            "checks": self.checks,
+        }
+
+
+def fitness_verdict(
+    *,
+    duration_s: float,
+    band_hz: tuple[float, float],
+    coverage: float,
+    longest_gap_s: float,
+    ectopic_share: float,
+    nonstationary_share: float,
+    r_squared: float,
+    curvature_pvalue: float,
+    beta_spectral: float,
+    beta_wavelet: float,
+    thresholds: FitnessThresholds | None = None,
+) -> Verdict:
+    """Decide whether a whole record is fit for a classical FFT power-law slope.
+
+    Every check that fails adds a reason (``unfit``) or a caution
+    (``fit-with-cautions``); NaN inputs (a quantity that could not be computed) add a
+    caution saying so.  The recommended estimator is ``spectral`` when fit, otherwise the
+    wavelet estimator (trend-robust) or DFA when the record is a motion (beta > 1.5).
+
+    Examples
+    --------
+    >>> v = fitness_verdict(duration_s=86400, band_hz=(1e-4, 1e-2), coverage=0.98,
+    ...     longest_gap_s=20, ectopic_share=0.001, nonstationary_share=0.1, r_squared=0.97,
+    ...     curvature_pvalue=0.3, beta_spectral=1.05, beta_wavelet=1.0)
+    >>> v.verdict
+    'fit'
+    """
+    th = thresholds or FitnessThresholds()
+    reasons: list[str] = []
+    cautions: list[str] = []
+    cycles = duration_s * band_hz[0]
+
+    def grade(value, bad, caution, fail_msg, caution_msg, *, higher_is_bad=True):
+        if not np.isfinite(value):
+            cautions.append(fail_msg.split(":")[0] + ": could not be computed")
+            return
+        is_bad = value > bad if higher_is_bad else value < bad
+        is_caution = value > caution if higher_is_bad else value < caution
+        if is_bad:
+            reasons.append(fail_msg)
+        elif is_caution:
+            cautions.append(caution_msg)
+
+    if cycles < th.caution_cycles:
+        reasons.append(f"duration: the record spans {cycles:.1f} periods of the lowest fitted "
+                       f"frequency {band_hz[0]:g} Hz (need >= {th.min_cycles:g})")
+    elif cycles < th.min_cycles:
+        cautions.append(f"duration: only {cycles:.1f} periods of {band_hz[0]:g} Hz "
+                        f"(>= {th.min_cycles:g} recommended)")
+    grade(coverage, th.min_coverage, th.caution_coverage,
+          f"coverage: {100 * coverage:.0f} % analysable (< {100 * th.min_coverage:.0f} %)",
+          f"coverage: {100 * coverage:.0f} % analysable (< {100 * th.caution_coverage:.0f} %)",
+          higher_is_bad=False)
+    grade(longest_gap_s, th.max_gap_s, th.caution_gap_s,
+          f"gap: longest unreadable stretch {longest_gap_s / 60:.0f} min "
+          f"(> {th.max_gap_s / 60:.0f} min)",
+          f"gap: longest unreadable stretch {longest_gap_s / 60:.0f} min "
+          f"(> {th.caution_gap_s / 60:.0f} min)")
+    grade(ectopic_share, th.max_ectopic, th.caution_ectopic,
+          f"ectopy: {100 * ectopic_share:.1f} % non-sinus beats (> {100 * th.max_ectopic:.0f} %)",
+          f"ectopy: {100 * ectopic_share:.1f} % non-sinus beats "
+          f"(> {100 * th.caution_ectopic:.0f} %); removed and interpolated")
+    grade(nonstationary_share, th.max_nonstationary, th.caution_nonstationary,
+          f"stationarity: {100 * nonstationary_share:.0f} % of long windows non-stationary "
+          f"(> {100 * th.max_nonstationary:.0f} %)",
+          f"stationarity: {100 * nonstationary_share:.0f} % of long windows non-stationary "
+          f"(> {100 * th.caution_nonstationary:.0f} %)")
+    grade(r_squared, th.min_r2, th.min_r2,
+          f"linearity: log-log R^2 {r_squared:.2f} in the band (< {th.min_r2:g})", "",
+          higher_is_bad=False)
+    if np.isfinite(curvature_pvalue) and curvature_pvalue < th.curvature_alpha:
+        cautions.append(f"linearity: significant curvature on log-log axes "
+                        f"(p = {curvature_pvalue:.2g}); the band is not one power law")
+    diff = abs(beta_spectral - beta_wavelet)
+    grade(diff, th.max_beta_disagreement, th.max_beta_disagreement,
+          f"agreement: FFT beta {beta_spectral:.2f} vs wavelet beta {beta_wavelet:.2f} "
+          f"(differ by > {th.max_beta_disagreement:g})", "")
+    cls = ("unknown" if not np.isfinite(beta_wavelet)
+           else "fGn" if beta_wavelet < 1 else "fBm" if beta_wavelet > 1 else "1/f")
+    if cls == "fBm" and beta_wavelet > 1.5:
+        cautions.append(f"class: wavelet beta {beta_wavelet:.2f} > 1.5, a motion (fBm-like); "
+                        "the periodogram of a motion is biased by leakage (Eke et al. 2000)")
+    verdict = "unfit" if reasons else "fit-with-cautions" if cautions else "fit"
+    if verdict == "fit":
+        recommended = "spectral"
+    elif cls == "fBm" and np.isfinite(beta_wavelet) and beta_wavelet > 1.5:
+        recommended = "dfa"
+    else:
+        recommended = "wavelet"
+    checks = {
+        "cycles_of_lowest_frequency": cycles,
+        "coverage": coverage,
+        "longest_gap_s": longest_gap_s,
+        "ectopic_share": ectopic_share,
+        "nonstationary_share": nonstationary_share,
+        "r_squared": r_squared,
+        "curvature_pvalue": curvature_pvalue,
+        "beta_spectral": beta_spectral,
+        "beta_wavelet": beta_wavelet,
+        "process_class": cls,
+    }
+    return Verdict(verdict, tuple(reasons), tuple(cautions), recommended,
+                   {k: (float(v) if isinstance(v, int | float | np.floating) else v)
+                    for k, v in checks.items()})
