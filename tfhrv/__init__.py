@@ -1,24 +1,41 @@
 """tfhrv: time-resolved scaling analysis of long heart inter-beat interval recordings.
 
-For research use only; not for diagnosis.
+For research use only; not for diagnosis.  ``import tfhrv`` is cheap: the public names
+below are imported on first use.
 """
 
 from __future__ import annotations
 
+from importlib import import_module
 from importlib.metadata import PackageNotFoundError, version
-
-from tfhrv.errors import InsufficientDataError, RecordFormatError, TfhrvWarning
-from tfhrv.recording import Recording
 
 try:
     __version__ = version("tfhrv")
 except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0.0.0"
 
-__all__ = [
-    "InsufficientDataError",
-    "Recording",
-    "RecordFormatError",
-    "TfhrvWarning",
-    "__version__",
-]
+_LAZY = {
+    "CleanOptions": "tfhrv.clean",
+    "InsufficientDataError": "tfhrv.errors",
+    "RecordFormatError": "tfhrv.errors",
+    "Recording": "tfhrv.recording",
+    "ScanOptions": "tfhrv.timegrid",
+    "TfhrvWarning": "tfhrv.errors",
+    "clean": "tfhrv.clean",
+    "inspect_record": "tfhrv.inspection",
+    "read_recording": "tfhrv.io.readers",
+    "rhythm_table": "tfhrv.rhythm",
+    "scan": "tfhrv.timegrid",
+}
+
+__all__ = sorted([*_LAZY, "__version__"])
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        return getattr(import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'tfhrv' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return __all__

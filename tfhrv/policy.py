@@ -6,13 +6,25 @@ the report print it from :data:`DECISION_TABLE`.
 
 from __future__ import annotations
 
+import warnings
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
 
+from tfhrv.clean import CleanResult
+from tfhrv.errors import InsufficientDataError
+from tfhrv.estimators._fit import ScalingFit
+from tfhrv.estimators.calibrate import calibrate
+from tfhrv.estimators.presets import estimate, long_band
+
 __all__ = [
     "DECISION_TABLE",
+    "RECORD_PRESETS",
+    "RecordAssessment",
+    "assess_record",
+    "calibrated_fit",
     "ESTIMATORS",
     "Choice",
     "FitnessThresholds",
@@ -29,44 +41,45 @@ ESTIMATORS: tuple[str, ...] = ("none", "spectral", "wavelet", "dfa")
 
 @dataclass(frozen=True, slots=True)
 class _Rule:
-    primary: str
-    fallback: str
+    valid: tuple[str, ...]
     reason: str
 
 
-#: category -> (primary estimator, fallback when the window cannot support the primary,
-#: reason).  Sources: Eke et al. 2002 (classify noise vs motion before choosing a method);
-#: Abry & Veitch 1998 (wavelets with N vanishing moments ignore polynomial trends of degree
-#: < N); Hu et al. 2001 and Kantelhardt et al. 2001 (DFA of order q removes polynomial trends
-#: of order q - 1 and copes with non-stationary increments); Kwiatkowski et al. 1992 and
-#: Said & Dickey 1984 for the ADF/KPSS reading (see tfhrv.stationarity).
+#: category -> (estimators whose assumptions hold there, reason).  Among the valid
+#: estimators that could be computed on the window, the one with the narrowest calibrated
+#: 95 % interval (in beta units) is primary; ties go to the earlier one.  Sources:
+#: Eke et al. 2002 (classify noise vs motion before choosing a method); Abry & Veitch 1998
+#: (wavelets with N vanishing moments ignore polynomial trends of degree < N); Hu et al. 2001
+#: and Kantelhardt et al. 2001 (DFA of order q removes polynomial trends of order q - 1 in the
+#: profile and copes with non-stationary increments); Kwiatkowski et al. 1992 and Said &
+#: Dickey 1984 for the ADF/KPSS reading (see tfhrv.stationarity).
 DECISION_TABLE: dict[str, _Rule] = {
     "stationary": _Rule(
-        "spectral", "wavelet",
-        "stationary (KPSS keeps level stationarity, no drift beyond surrogates): the "
-        "periodogram slope's assumptions hold",
+        ("spectral", "wavelet", "dfa"),
+        "stationary (no drift beyond surrogates, level stationarity kept): the periodogram "
+        "slope's assumptions hold, as do the others'; the most precise is primary",
     ),
     "trend": _Rule(
-        "wavelet", "dfa",
-        "trend-stationary: a trend leaks into the low-frequency periodogram; wavelets with 3 "
-        "vanishing moments ignore polynomial trends of degree < 3",
+        ("wavelet",),
+        "trend-stationary: a trend leaks into the low-frequency periodogram and bends DFA-1; "
+        "wavelets with 3 vanishing moments ignore polynomial trends of degree < 3",
     ),
     "unit-root": _Rule(
-        "dfa", "wavelet",
+        ("dfa", "wavelet"),
         "difference-stationary (fBm-like, unit root not rejected): the periodogram of a motion "
-        "is biased by leakage; DFA of the profile has no stationarity assumption",
+        "is biased by leakage; DFA and wavelets handle non-stationary increments",
     ),
     "drifting": _Rule(
-        "wavelet", "dfa",
-        "mean or SD drifts beyond what surrogates with the same spectrum show: local wavelet "
-        "energies are robust to slow drift, the periodogram is not",
+        ("wavelet", "dfa"),
+        "mean or SD drifts beyond what surrogates with the same spectrum show: the periodogram "
+        "is distorted; local wavelet energies and DFA are robust to slow drift",
     ),
     "inconclusive": _Rule(
-        "dfa", "wavelet",
-        "the unit-root and stationarity tests disagree or lack power: DFA makes the fewest "
-        "assumptions",
+        ("dfa", "wavelet"),
+        "the unit-root and stationarity tests disagree or lack power: DFA and wavelets make "
+        "fewer assumptions than the periodogram",
     ),
-    "too-short": _Rule("none", "none", "too few NN intervals for any estimator"),
+    "too-short": _Rule((), "too few NN intervals for any estimator"),
 }
 
 
@@ -78,15 +91,16 @@ class Choice:
     reason: str
 
 
-def choose_estimator(category: str, /, *, available: frozenset[str] | set[str]) -> Choice:
+def choose_estimator(category: str, /, *, available: Mapping[str, float]) -> Choice:
     """Pick the primary estimator for a window.
 
     Parameters
     ----------
     category : str
         Stationarity category of the window (see :data:`tfhrv.stationarity.CATEGORIES`).
-    available : set of str
-        Estimators that produced a finite exponent on this window.
+    available : mapping of str to float
+        Estimators that produced a finite exponent on this window, with the width of their
+        calibrated 95 % interval in beta units (NaN when unknown).
 
     Returns
     -------
@@ -94,33 +108,39 @@ def choose_estimator(category: str, /, *, available: frozenset[str] | set[str]) 
 
     Examples
     --------
-    >>> choose_estimator("trend", available={"spectral", "wavelet", "dfa"}).estimator
+    >>> choose_estimator("trend", available={"spectral": 0.2, "wavelet": 0.3}).estimator
     'wavelet'
-    >>> choose_estimator("stationary", available={"wavelet", "dfa"}).estimator
-    'wavelet'
+    >>> choose_estimator("stationary", available={"spectral": 0.5, "dfa": 0.2}).estimator
+    'dfa'
     """
     if category not in DECISION_TABLE:
         raise ValueError(f"category must be one of {tuple(DECISION_TABLE)!r}, got {category!r}")
     rule = DECISION_TABLE[category]
-    for est, note in ((rule.primary, ""), (rule.fallback, " (primary not computable here)")):
-        if est in available:
-            return Choice(est, rule.reason + note)
-    for est in ("dfa", "wavelet"):
-        if est in available:
-            return Choice(est, rule.reason + f"; neither {rule.primary} nor {rule.fallback} "
-                          "computable here")
-    return Choice("none", rule.reason if category == "too-short"
-                  else "no estimator could be computed on this window")
+    if not rule.valid:
+        return Choice("none", rule.reason)
+    usable = [e for e in rule.valid if e in available]
+    if not usable:
+        return Choice("none", rule.reason + f"; none of {', '.join(rule.valid)} computable here")
+
+    def width(e: str) -> float:
+        w = float(available[e])
+        return w if np.isfinite(w) else np.inf
+
+    best = min(usable, key=lambda e: (width(e), rule.valid.index(e)))
+    note = f" ({best}: narrowest interval)" if len(usable) > 1 else ""
+    return Choice(best, rule.reason + note)
 
 
 def explain_table() -> str:
     """The decision table as aligned text (for ``--explain``, the README and the report)."""
-    rows = [("category", "primary", "fallback", "reason")]
-    rows += [(c, r.primary, r.fallback, r.reason) for c, r in DECISION_TABLE.items()]
+    rows = [("category", "valid estimators", "reason")]
+    rows += [(c, ", ".join(r.valid) or "none", r.reason) for c, r in DECISION_TABLE.items()]
     w0 = max(len(r[0]) for r in rows)
     w1 = max(len(r[1]) for r in rows)
-    w2 = max(len(r[2]) for r in rows)
-    return "\n".join(f"{a:<{w0}}  {b:<{w1}}  {c:<{w2}}  {d}" for a, b, c, d in rows)
+    lines = [f"{a:<{w0}}  {b:<{w1}}  {c}" for a, b, c in rows]
+    lines.append("Among the valid estimators computed on a window, the one with the narrowest "
+                 "calibrated 95 % interval is primary.")
+    return "\n".join(lines)
 
 
 @dataclass(frozen=True, slots=True)
@@ -129,9 +149,11 @@ class FitnessThresholds:
 
     Defaults and their sources:
 
-    - ``min_cycles`` = 10 and ``caution_cycles`` = 5: the record should span at least 10
-      periods of the lowest fitted frequency (Task Force 1996 asks for about 10 periods
-      of a band's lower limit, from memory); between 5 and 10 is a caution, below 5 unfit.
+    - ``min_cycles`` = 8 and ``caution_cycles`` = 4: periods of the lowest fitted
+      frequency that the record spans.  The Task Force 1996 asks for about 10 periods of
+      a band's lower limit (from memory); the classical 1e-4 Hz band of a 24-h record has
+      8.6, and 24 h is the accepted length for it (common practice), so 8 is the fit
+      limit; 4-8 is a caution and below 4 unfit.
     - ``min_coverage`` = 0.75 analysable share (the Task Force 1996 asks for >= 18 h of
       analysable data in a 24-h record, from memory).
     - ``max_gap_s`` = 1800 s unfit, 600 s caution (common practice: a gap longer than
@@ -147,8 +169,8 @@ class FitnessThresholds:
       three times the calibrated SE of a 24-h estimate; common practice).
     """
 
-    min_cycles: float = 10.0
-    caution_cycles: float = 5.0
+    min_cycles: float = 8.0
+    caution_cycles: float = 4.0
     min_coverage: float = 0.75
     caution_coverage: float = 0.9
     max_gap_s: float = 1800.0
@@ -289,3 +311,95 @@ def fitness_verdict(
     return Verdict(verdict, tuple(reasons), tuple(cautions), recommended,
                    {k: (float(v) if isinstance(v, int | float | np.floating) else v)
                     for k, v in checks.items()})
+
+
+def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray | None = None,
+                   order: int = 1, vanishing_moments: int = 3) -> ScalingFit | None:
+    """Run a preset (:mod:`tfhrv.estimators.presets`) and calibrate it.
+
+    Returns None when the series cannot support the preset (too short, constant, ...).
+    """
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            raw = estimate(preset, nn_ms, beat_time_s=beat_time_s, order=order,
+                           vanishing_moments=vanishing_moments)
+    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+        return None
+    if not np.isfinite(raw.exponent):
+        return None
+    return calibrate(raw, estimator=preset)
+
+
+#: exponent name -> preset for the whole record (and the long tier).
+RECORD_PRESETS: dict[str, str] = {
+    "alpha1": "alpha1",
+    "alpha2": "alpha2",
+    "alpha_long": "alpha_long",
+    "beta_spectral": "beta_spectral_long",
+    "beta_wavelet": "beta_wavelet_long",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class RecordAssessment:
+    """Whole-record exponents (calibrated fits, None where not computable) and the
+    FFT-slope fitness verdict."""
+
+    fits: dict
+    verdict: Verdict
+    band_hz: tuple[float, float] | None
+
+
+def assess_record(
+    cleaned: CleanResult,
+    /,
+    *,
+    long_categories: np.ndarray,
+    band_hz: tuple[float, float] = (1e-4, 1e-2),
+    order: int = 1,
+    vanishing_moments: int = 3,
+    thresholds: FitnessThresholds | None = None,
+) -> RecordAssessment:
+    """Whole-record exponents and the FFT-slope fitness verdict.
+
+    Parameters
+    ----------
+    cleaned : CleanResult
+    long_categories : array of int
+        Stationarity category codes of the long-tier windows
+        (index into :data:`tfhrv.stationarity.CATEGORIES`).
+    band_hz : (float, float)
+        The classical band whose FFT slope is being judged.
+    """
+    from tfhrv.stationarity import CATEGORIES
+
+    q = cleaned.quality
+    nn, tt = cleaned.nn_ms, cleaned.nn_time_s
+    fits = {name: calibrated_fit(preset, nn, beat_time_s=tt, order=order,
+                                 vanishing_moments=vanishing_moments)
+            for name, preset in RECORD_PRESETS.items()}
+    cats = np.asarray(long_categories)
+    valid = cats != CATEGORIES.index("too-short")
+    nonstat = (float(np.mean(cats[valid] != CATEGORIES.index("stationary")))
+               if valid.any() else float("nan"))
+    spec = fits["beta_spectral"]
+
+    def value(name: str) -> float:
+        f = fits[name]
+        return float(f.exponent) if f is not None else float("nan")
+
+    verdict = fitness_verdict(
+        duration_s=q.recorded_s, band_hz=band_hz, coverage=q.coverage,
+        longest_gap_s=q.longest_gap_s, ectopic_share=q.ectopic_share,
+        nonstationary_share=nonstat,
+        r_squared=spec.r_squared if spec is not None else float("nan"),
+        curvature_pvalue=spec.curvature_pvalue if spec is not None else float("nan"),
+        beta_spectral=value("beta_spectral"), beta_wavelet=value("beta_wavelet"),
+        thresholds=thresholds,
+    )
+    try:
+        used_band = long_band(q.recorded_s)
+    except InsufficientDataError:
+        used_band = None
+    return RecordAssessment(fits, verdict, used_band)

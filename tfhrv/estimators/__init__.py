@@ -1,0 +1,55 @@
+"""Scaling-exponent estimators: pure functions on 1-D arrays returning frozen results."""
+
+from tfhrv.estimators._fit import Conversion, ScalingFit, convert_exponent, loglog_fit
+from tfhrv.estimators.calibrate import calibrate
+from tfhrv.estimators.dfa import (
+    Fluctuation,
+    LocalSlopes,
+    alpha1,
+    alpha2,
+    dfa,
+    dfa_fluctuation,
+    local_alpha,
+)
+from tfhrv.estimators.presets import PRESETS, estimate
+from tfhrv.estimators.spectral import (
+    TASK_FORCE_BANDS,
+    BandPowers,
+    Spectrum,
+    band_powers,
+    beta_from_nn,
+    lomb_scargle_psd,
+    periodogram_psd,
+    spectral_exponent,
+    welch_psd,
+)
+from tfhrv.estimators.wavelet import LogscaleDiagram, logscale_diagram, wavelet_exponent
+
+__all__ = [
+    "PRESETS",
+    "TASK_FORCE_BANDS",
+    "BandPowers",
+    "Conversion",
+    "Fluctuation",
+    "LocalSlopes",
+    "LogscaleDiagram",
+    "ScalingFit",
+    "Spectrum",
+    "alpha1",
+    "alpha2",
+    "band_powers",
+    "beta_from_nn",
+    "calibrate",
+    "convert_exponent",
+    "dfa",
+    "dfa_fluctuation",
+    "estimate",
+    "local_alpha",
+    "logscale_diagram",
+    "lomb_scargle_psd",
+    "loglog_fit",
+    "periodogram_psd",
+    "spectral_exponent",
+    "wavelet_exponent",
+    "welch_psd",
+]

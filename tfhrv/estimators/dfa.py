@@ -7,6 +7,7 @@ log n (Peng et al. 1995).
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 from typing import Any
 
@@ -136,6 +137,7 @@ def default_scales(n_obs: int, /, *, order: int = 1) -> np.ndarray:
     return np.unique(np.rint(np.geomspace(lo, hi, num)).astype(np.int64))
 
 
+@functools.lru_cache(maxsize=512)
 def _box_basis(n: int, order: int) -> np.ndarray:
     """Orthonormal basis (n x q) of the degree-1..q polynomials on n points, orthogonal
     to the constant: the discrete Gram (Chebyshev) polynomials of the centred, scaled
@@ -151,7 +153,7 @@ def _box_basis(n: int, order: int) -> np.ndarray:
     if order >= 3:
         rows[2] = u * (u2 - (3.0 - 7.0 / n**2) / 20.0)
     rows /= np.sqrt(np.einsum("ij,ij->i", rows, rows))[:, None]
-    return rows.T
+    return readonly(np.ascontiguousarray(rows.T))  # cached: shared, so read-only
 
 
 def _box_rss(boxes: np.ndarray, basis: np.ndarray, work: np.ndarray) -> float:

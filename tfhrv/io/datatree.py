@@ -64,6 +64,9 @@ def atomic_write(path: str | Path, write) -> Path:
     os.close(fd)
     try:
         write(Path(tmp))
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual file mode
         os.replace(tmp, dest)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

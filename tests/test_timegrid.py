@@ -1,0 +1,176 @@
+"""The time x scale DataTree: layout, attributes, round trip, determinism, recovery."""
+
+from __future__ import annotations
+
+import datetime as dt
+import subprocess
+import sys
+import textwrap
+from dataclasses import replace
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from tfhrv.clean import clean
+from tfhrv.io.datatree import open_tree, write_tree
+from tfhrv.recording import Recording
+from tfhrv.synth import fgn
+from tfhrv.timegrid import ScanOptions, scan
+from tfhrv.windows import LONG, TierSpec, window_starts
+
+START = dt.datetime(2026, 3, 2, 8, 0)
+
+
+def schedule_recording(hours: float, *, seed: int, sleep=(23.0, 7.0), h_wake=0.9,
+                       h_sleep=0.7, level_shift_at_h: float | None = None,
+                       shift_ms: float = 150.0) -> tuple:
+    """NN = 800 ms + 50 ms x exact fGn whose H follows a sleep/wake clock schedule.
+
+    Returns the recording and a function giving the true H at a clock time.  Each state
+    segment is a separate Davies-Harte path (Davies & Harte 1987), so within a segment
+    the truth is exact.
+    """
+    gen = np.random.default_rng(seed)
+
+    def asleep(clock_h):
+        a, b = sleep
+        return (clock_h >= a) | (clock_h < b) if a > b else (clock_h >= a) & (clock_h < b)
+
+    n_total = int(hours * 3600 / 0.8)
+    t_nominal = np.arange(n_total) * 0.8
+    state = asleep((8.0 + t_nominal / 3600.0) % 24)
+    edges = np.flatnonzero(np.diff(state.astype(int))) + 1
+    bounds = np.concatenate([[0], edges, [n_total]])
+    rr = np.empty(n_total)
+    for a, b in zip(bounds[:-1], bounds[1:], strict=True):
+        h = h_sleep if state[a] else h_wake
+        x = fgn(b - a, h, rng=gen)
+        rr[a:b] = 800.0 + 50.0 * x / x.std()
+    if level_shift_at_h is not None:
+        rr[int(level_shift_at_h * 3600 / 0.8):] += shift_ms
+    rec = Recording.from_intervals(rr, start=START, record_id=f"sched{seed}")
+    return rec, lambda clock_h: np.where(asleep(clock_h), h_sleep, h_wake)
+
+
+@pytest.fixture(scope="module")
+def small_tree():
+    rec, _ = schedule_recording(9.0, seed=1)
+    opt = ScanOptions(long=replace(LONG, hop_s=2 * 3600.0))
+    return scan(clean(rec), options=opt)
+
+
+def test_window_alignment_to_clock():
+    # clock start 08:04 -> first 5-min window at 08:05 (60 s after the start)
+    s = window_starts(3600.0, dt.time(8, 4), TierSpec(300, 300, "short"))
+    assert s[0] == 60.0 and np.all(np.diff(s) == 300.0)
+    # unknown clock: windows from the start
+    assert window_starts(3600.0, None, TierSpec(300, 300, "short"))[0] == 0.0
+
+
+def test_layout_and_cf_attributes(small_tree):
+    tree = small_tree
+    assert set(tree.children) == {"nn", "short", "long", "record"}
+    short = tree["/short"].to_dataset()
+    for name in ("nn_mean", "psd", "band_power", "fluctuation", "local_alpha", "alpha1",
+                 "alpha1_ci", "beta_wavelet", "exponent", "exponent_ci", "stationarity",
+                 "estimator", "reason", "adf_stat", "kpss_pvalue", "drift_pvalue"):
+        assert name in short, name
+    for name, var in short.data_vars.items():
+        assert "long_name" in var.attrs, name
+        if name not in ("reason", "stationarity", "estimator"):
+            assert "units" in var.attrs, name
+    assert "flag_meanings" in short["stationarity"].attrs
+    assert short["alpha1_ci"].dims == ("time", "bound")
+    assert short["local_alpha"].dims == ("time", "scale")
+    assert np.issubdtype(short["time"].dtype, np.datetime64)
+    root = tree.attrs
+    for key in ("tfhrv_version", "source_file", "source_sha256", "parameters", "created",
+                "caution"):
+        assert key in root
+    assert "research use" in root["caution"].lower()
+    assert tree["/record"].attrs["verdict"] in ("fit", "fit-with-cautions", "unfit")
+
+
+def test_round_trip_identical(small_tree, tmp_path):
+    path = write_tree(small_tree, tmp_path / "out.nc")
+    back = open_tree(path)
+    for group in ("/", "/nn", "/short", "/long", "/record"):
+        xr.testing.assert_identical(back[group].to_dataset(), small_tree[group].to_dataset())
+    assert not list(tmp_path.glob("*.part"))
+
+
+def test_same_input_same_numbers():
+    rec, _ = schedule_recording(5.0, seed=3)
+    opt = ScanOptions()
+    a, b = scan(clean(rec), options=opt), scan(clean(rec), options=opt)
+    for group in ("/short", "/long", "/record"):
+        xr.testing.assert_equal(a[group].to_dataset(), b[group].to_dataset())
+
+
+def test_plain_xarray_opens_and_plots_without_tfhrv(small_tree, tmp_path):
+    path = write_tree(small_tree, tmp_path / "plain.nc")
+    code = textwrap.dedent(f"""
+        import sys
+        import matplotlib
+        matplotlib.use("Agg")
+        import xarray as xr
+        tree = xr.open_datatree({str(path)!r})
+        ax = tree["/short"].alpha1.plot.line(x="time")[0].axes
+        assert "tfhrv" not in sys.modules
+        assert len(ax.lines[0].get_xdata()) == tree["/short"].sizes["time"]
+        print("ok", ax.get_ylabel())
+    """)
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          check=False, cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert "DFA exponent" in proc.stdout
+
+
+def test_unknown_clock_gives_elapsed_time():
+    rec, _ = schedule_recording(5.0, seed=4)
+    tree = scan(clean(rec.with_start(None)),
+                options=ScanOptions())
+    assert np.issubdtype(tree["/short"]["time"].dtype, np.timedelta64)
+    assert tree.attrs["clock"] == "unknown"
+    assert "clock_hour" not in tree["/short"].coords
+
+
+@pytest.mark.slow
+def test_recovery_of_a_sleep_wake_schedule():
+    """Calibrated alpha1 (short tier) and the long-tier exponent follow a known schedule.
+
+    Truth: exact fGn with H = 0.9 awake and 0.7 asleep (23:00-07:00), so DFA alpha = H and
+    beta = 2H - 1 (REFERENCES 2.1).  Target RMSE <= 0.08 in alpha units over valid windows
+    wholly inside one state.
+    """
+    rec, truth = schedule_recording(24.0, seed=11)
+    tree = scan(clean(rec))
+    short = tree["/short"].to_dataset()
+    clock = short["clock_hour"].values
+    half = 2.5 / 60
+    same = truth(clock - half) == truth(clock + half)
+    est = short["alpha1"].values
+    ok = same & np.isfinite(est)
+    rmse_short = np.sqrt(np.mean((est[ok] - truth(clock[ok])) ** 2))
+    long = tree["/long"].to_dataset()
+    lc = long["clock_hour"].values
+    inside = truth(lc - 2) == truth(lc + 2)
+    alpha_long = (long["exponent"].values + 1) / 2
+    okl = inside & np.isfinite(alpha_long)
+    rmse_long = np.sqrt(np.mean((alpha_long[okl] - truth(lc[okl])) ** 2))
+    assert ok.sum() > 200 and okl.sum() >= 5
+    assert rmse_short <= 0.08, rmse_short
+    assert rmse_long <= 0.08, rmse_long
+
+
+def test_level_shift_windows_do_not_use_fft_as_primary():
+    # a 300-ms step (6 SD of the fluctuation), e.g. lying down after standing
+    rec, _ = schedule_recording(9.0, seed=5, level_shift_at_h=4.5, shift_ms=300.0)
+    tree = scan(clean(rec), options=ScanOptions())
+    long = tree["/long"].to_dataset()
+    el = long["elapsed"].values
+    straddle = (el - 7200 < 4.5 * 3600) & (el + 7200 > 4.5 * 3600)
+    est = long["estimator"].values[straddle]
+    assert straddle.any()
+    assert not np.any(est == 1), long["reason"].values[straddle]  # 1 = spectral
