@@ -19,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
+from tfhrv.estimators.dfa import dfa
 from tfhrv.synth import sidecar_path, simulate_recording, write_recording_csv
 
 
@@ -52,6 +53,29 @@ def recordings() -> list[dict]:
     ]
 
 
+def scaling_summary(sim) -> dict[str, tuple[float, float]]:
+    """Per state: mean DFA-1 alpha1 (4..16 beats) of the 5-min windows and mean DFA-1 over
+    64..1024 beats, on the clean core (45 min from the edges) of segments with >= 2 h of
+    core."""
+    rec, truth = sim.recording, sim.truth
+    bad = np.zeros(rec.n_beats, dtype=bool)
+    bad[truth["affected_index"]] = True
+    out: dict[str, tuple[list, list]] = {"wake": ([], []), "sleep": ([], [])}
+    for seg in truth["segments"]:
+        idx = np.arange(seg["first_index"], seg["last_index"] + 1)
+        t = rec.beat_time_s[idx]
+        idx = idx[(t > seg["start_s"] + 2700.0) & (t < seg["end_s"] - 2700.0)]
+        if idx.size == 0 or rec.beat_time_s[idx[-1]] - rec.beat_time_s[idx[0]] < 7200.0:
+            continue
+        t, ok = rec.beat_time_s[idx], ~bad[idx]
+        wins = [rec.rr_ms[idx[(t >= a) & (t < a + 300.0) & ok]]
+                for a in np.arange(t[0], t[-1] - 300.0, 300.0)]
+        out[seg["state"]][0].extend(dfa(w, fit_range=(4, 16)).exponent
+                                    for w in wins if w.size >= 200)
+        out[seg["state"]][1].append(dfa(rec.rr_ms[idx[ok]], fit_range=(64, 1024)).exponent)
+    return {st: (float(np.mean(a)), float(np.mean(b))) for st, (a, b) in out.items() if a}
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--out", type=Path,
@@ -59,6 +83,7 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     args.out.mkdir(parents=True, exist_ok=True)
     total = 0
+    scaling = []
     print("| record | hours | intervals | mean NN wake / sleep (ms) | SD of NN (ms) | "
           "V / S / artifacts | gaps (min) | csv.gz bytes | truth bytes | sim s | write s |")
     print("|---|---|---|---|---|---|---|---|---|---|---|")
@@ -84,7 +109,18 @@ def main(argv: list[str] | None = None) -> int:
               f"{wake:.0f} / {sleep:.0f} | {rec.rr_ms[clean].std():.0f} | "
               f"{labels.count('V')} / {labels.count('S')} / {len(truth['artifact']['index'])} | "
               f"{gaps} | {size} | {side} | {t1 - t0:.2f} | {t2 - t1:.2f} |")
+        exp, meas = truth["expected_exponents"], scaling_summary(sim)
+        for st in ("wake", "sleep"):
+            alpha = truth["profile"][f"alpha_{st}"]
+            scaling.append(f"| {spec['record_id']} | {st} | {exp['alpha1'][st]:.3f} | "
+                           f"{meas[st][0]:.3f} | {alpha:.2f} | {exp['alpha_long'][st]:.3f} | "
+                           f"{meas[st][1]:.3f} |")
     print(f"total {total} bytes in {args.out}")
+    print()
+    print("| record | state | alpha1 expected | alpha1 of 5-min windows | alpha (truth) | "
+          "DFA 64-1024 expected | DFA 64-1024 |")
+    print("|---|---|---|---|---|---|---|")
+    print("\n".join(scaling))
     if total > 5 * 2**20:
         raise SystemExit("demo data exceed 5 MB")
     return 0

@@ -4,9 +4,9 @@
   Davies–Harte circulant-embedding method (:func:`fgn`, :func:`fbm`).
 - Gaussian 1/f^beta noise by the Timmer–König method (:func:`powerlaw_noise`).
 - Realistic multi-day beat-interval recordings with a known ground truth: sleep/wake
-  schedule, mean-interval rhythm, per-state scaling exponent, respiratory modulation,
-  ectopic beats, artifacts and gaps (:func:`simulate_recording`), and a CSV writer with a
-  JSON truth sidecar (:func:`write_recording_csv`).
+  schedule, mean-interval rhythm, per-state scaling exponent, low-frequency (~0.1 Hz) and
+  respiratory oscillations, ectopic beats, artifacts and gaps (:func:`simulate_recording`),
+  and a CSV writer with a JSON truth sidecar (:func:`write_recording_csv`).
 
 All synthetic recordings are invented; none comes from a person.
 """
@@ -23,6 +23,16 @@ from typing import Any, Literal
 import numpy as np
 
 from tfhrv._synth_csv import sidecar_path, write_recording_csv
+from tfhrv._synth_model import (
+    ALPHA1_SCALES,
+    ALPHA2_SCALES,
+    LF_GRID_HZ,
+    LONG_SCALES,
+    expected_exponents,
+    lf_resonance,
+    powerlaw_acov,
+)
+from tfhrv._synth_noise import fbm, fgn, fgn_autocovariance, powerlaw_noise
 from tfhrv._validation import check_choice, check_positive
 from tfhrv.recording import Recording
 
@@ -39,160 +49,6 @@ __all__ = [
     "simulate_recording",
     "write_recording_csv",
 ]
-
-
-def fgn_autocovariance(hurst: float, lags: np.ndarray) -> np.ndarray:
-    """Exact autocovariance of unit-variance fGn.
-
-    gamma(k) = (|k+1|^{2H} - 2|k|^{2H} + |k-1|^{2H}) / 2.
-
-    References
-    ----------
-    Beran J. Statistics for Long-Memory Processes. Chapman & Hall 1994, eq. 2.11.
-    """
-    k = np.abs(np.asarray(lags, dtype=np.float64))
-    h2 = 2.0 * hurst
-    return 0.5 * (np.abs(k + 1) ** h2 - 2 * k**h2 + np.abs(k - 1) ** h2)
-
-
-def fgn(n: int, hurst: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
-    """Exact fractional Gaussian noise by the Davies–Harte method.
-
-    Parameters
-    ----------
-    n : int
-        Number of samples (>= 2).
-    hurst : float
-        Hurst exponent H in (0, 1).  The spectrum behaves as 1/f^beta with beta = 2H - 1.
-    sigma : float, default 1
-        Standard deviation.
-    rng : None, int or numpy.random.Generator
-        Source of randomness, passed to :func:`numpy.random.default_rng`.
-
-    Returns
-    -------
-    numpy.ndarray
-        ``n`` samples of fGn.
-
-    Notes
-    -----
-    The autocovariance c = [gamma(0..n), gamma(n-1..1)] is embedded in a circulant matrix
-    of size 2n whose eigenvalues lambda = Re FFT(c) are non-negative for fGn (Craigmile
-    2003); the path is Re FFT(sqrt(lambda / 2n) Z) for complex standard normal Z.
-
-    References
-    ----------
-    Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95-101.
-    doi:10.1093/biomet/74.1.95
-    Wood ATA, Chan G. Simulation of stationary Gaussian processes in [0,1]^d.
-    J Comput Graph Stat 1994;3:409-432.
-
-    Examples
-    --------
-    >>> x = fgn(4096, 0.5, rng=0)
-    >>> round(float(x.std()), 1)
-    1.0
-    """
-    n = int(n)
-    if n < 2:
-        raise ValueError(f"n must be >= 2, got {n}")
-    if not 0.0 < float(hurst) < 1.0:
-        raise ValueError(f"hurst must be in (0, 1), got {hurst!r}")
-    sigma = check_positive(sigma, "sigma")
-    gen = np.random.default_rng(rng)
-    gamma = fgn_autocovariance(float(hurst), np.arange(n + 1))
-    row = np.concatenate([gamma, gamma[-2:0:-1]])
-    lam = np.fft.fft(row).real
-    lam[lam < 0] = 0.0  # round-off only; exact eigenvalues are >= 0 for fGn
-    m = row.size
-    z = gen.standard_normal(m) + 1j * gen.standard_normal(m)
-    w = np.fft.fft(np.sqrt(lam / m) * z)
-    return sigma * w.real[:n]
-
-
-def fbm(n: int, hurst: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
-    """Fractional Brownian motion: the running sum of exact fGn (``n`` samples).
-
-    The spectrum behaves as 1/f^beta with beta = 2H + 1; DFA alpha = H + 1.
-
-    Examples
-    --------
-    >>> b = fbm(1024, 0.7, rng=1)
-    >>> b.shape
-    (1024,)
-    """
-    return np.cumsum(fgn(n, hurst, sigma=sigma, rng=rng))
-
-
-# ---------------------------------------------------------------------------------------
-# 1/f^beta noise
-# ---------------------------------------------------------------------------------------
-
-
-def powerlaw_noise(n: int, beta: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
-    """Gaussian 1/f^beta noise by the Timmer–König method.
-
-    Parameters
-    ----------
-    n : int
-        Number of samples (>= 2).
-    beta : float
-        Spectral exponent: the power spectral density behaves as 1/f^beta (log-log slope
-        -beta).  Any finite value; 0 is white noise, 1 pink, 2 Brownian-like.
-    sigma : float, default 1
-        Expected standard deviation of the output.
-    rng : None, int or numpy.random.Generator
-        Source of randomness, passed to :func:`numpy.random.default_rng`.
-
-    Returns
-    -------
-    numpy.ndarray
-        ``n`` samples with zero mean (the f = 0 coefficient is zero).
-
-    Notes
-    -----
-    For each Fourier frequency f_k = k/n (0 < k <= n/2) the real and imaginary parts of
-    the coefficient are drawn independently from N(0, f_k^{-beta}), i.e. amplitude
-    proportional to f_k^{-beta/2}; the coefficient at the Nyquist frequency (even n) is
-    real.  The series is the inverse real FFT.  The expected variance
-
-        Var x = (4 sum_{0<k<n/2} f_k^{-beta} + 2 [n even] f_{n/2}^{-beta}) / n^2
-
-    is divided out and the result multiplied by ``sigma``.  The series is periodic (its
-    spectrum has no power below 1/n); for long-range work take ``n`` well beyond the
-    longest scale of interest.
-
-    References
-    ----------
-    Timmer J, König M. On generating power law noise. Astron Astrophys 1995;300:707-710.
-
-    Examples
-    --------
-    >>> x = powerlaw_noise(8192, 1.0, rng=0)
-    >>> x.shape, abs(float(x.mean())) < 1e-12
-    ((8192,), True)
-    """
-    n = int(n)
-    if n < 2:
-        raise ValueError(f"n must be >= 2, got {n}")
-    beta = float(beta)
-    if not np.isfinite(beta):
-        raise ValueError(f"beta must be finite, got {beta!r}")
-    sigma = check_positive(sigma, "sigma")
-    gen = np.random.default_rng(rng)
-    f = np.fft.rfftfreq(n)
-    scale = np.zeros_like(f)
-    scale[1:] = f[1:] ** (-beta / 2.0)
-    re = gen.standard_normal(f.size) * scale
-    im = gen.standard_normal(f.size) * scale
-    im[0] = 0.0
-    power = 4.0 * np.sum(scale[1:] ** 2)
-    if n % 2 == 0:
-        im[-1] = 0.0
-        re[-1] *= np.sqrt(2.0)
-        power -= 2.0 * scale[-1] ** 2  # the Nyquist term counts once, with variance 2 s^2
-    x = np.fft.irfft(re + 1j * im, n)
-    return sigma * x * (n / np.sqrt(power))
 
 
 # ---------------------------------------------------------------------------------------
@@ -319,6 +175,15 @@ class SimulationProfile:
     blend_beats : int
         Half-width (beats) of the variance-preserving cross-fade between the fluctuation
         series of adjacent sleep/wake segments.
+    lf_hz : float
+        Centre frequency of the low-frequency (LF, baroreflex / Mayer-wave) oscillation
+        (Hz), inside the LF band 0.04-0.15 Hz of the Task Force (1996).
+    lf_bandwidth_hz : float
+        Half-power bandwidth of that oscillation (Hz), below ``lf_hz``: a narrow-band
+        stochastic rhythm, not a pure sinusoid.
+    lf_sd_wake_ms, lf_sd_sleep_ms : float
+        Standard deviation of the LF oscillation in each state (ms); both 0 switches it
+        off (and then the recording is the same as without the component).
     """
 
     name: str = "day-worker"
@@ -330,26 +195,35 @@ class SimulationProfile:
     circadian_peak_hour: float = 4.0
     alpha_wake: float = 1.05
     alpha_sleep: float = 0.85
-    sd_wake_ms: float = 55.0
-    sd_sleep_ms: float = 45.0
-    white_sd_ms: float = 10.0
+    sd_wake_ms: float = 85.0
+    sd_sleep_ms: float = 55.0
+    white_sd_ms: float = 6.0
     resp_hz: float = 0.25
     resp_amp_wake_ms: float = 15.0
-    resp_amp_sleep_ms: float = 30.0
+    resp_amp_sleep_ms: float = 18.0
     ectopic_rate: float = 0.002
     ventricular_share: float = 0.5
     artifact_rate: float = 0.0005
     artifact_label_share: float = 0.5
     blend_beats: int = 256
+    lf_hz: float = 0.1
+    lf_bandwidth_hz: float = 0.03
+    lf_sd_wake_ms: float = 33.0
+    lf_sd_sleep_ms: float = 25.0
 
     def __post_init__(self) -> None:
         if not isinstance(self.schedule, SleepSchedule):
             raise TypeError(f"schedule must be a SleepSchedule, got {self.schedule!r}")
-        for name in ("nn_wake_ms", "nn_sleep_ms", "sd_wake_ms", "sd_sleep_ms", "resp_hz"):
+        for name in ("nn_wake_ms", "nn_sleep_ms", "sd_wake_ms", "sd_sleep_ms", "resp_hz",
+                     "lf_hz", "lf_bandwidth_hz"):
             check_positive(getattr(self, name), name)
         for name in ("transition_min", "circadian_amp_ms", "white_sd_ms", "resp_amp_wake_ms",
-                     "resp_amp_sleep_ms", "ectopic_rate", "artifact_rate"):
+                     "resp_amp_sleep_ms", "ectopic_rate", "artifact_rate", "lf_sd_wake_ms",
+                     "lf_sd_sleep_ms"):
             check_positive(getattr(self, name), name, strict=False)
+        if not self.lf_bandwidth_hz < self.lf_hz < 0.5 * LF_GRID_HZ:
+            raise ValueError(f"lf_hz must lie between lf_bandwidth_hz and {0.5 * LF_GRID_HZ} Hz, "
+                             f"got lf_hz={self.lf_hz!r}, lf_bandwidth_hz={self.lf_bandwidth_hz!r}")
         for name in ("alpha_wake", "alpha_sleep"):
             if not 0.0 < float(getattr(self, name)) < 2.0:
                 raise ValueError(f"{name} must be in (0, 2), got {getattr(self, name)!r}")
@@ -368,13 +242,18 @@ class SimulationProfile:
         return d
 
 
-#: Named profiles.  ``day-worker``: healthy adult sleeping 23:00-07:00 with the sleep/wake
-#: exponents of Ivanov et al. (1999) (wake ~1.05, sleep ~0.85; from memory).
-#: ``night-shift``: the same physiology sleeping 09:00-16:00.  ``heart-failure``: shorter
-#: mean interval, low variability, flattened day/night difference, steep long-range
-#: spectrum (beta = 2 alpha - 1 ~ 1.4-1.5) and low short-scale alpha1 (~0.8), after the
-#: group values of Peng et al. (1995) and the steep slopes of Huikuri et al. (1998)
-#: (from memory).
+#: Named profiles.  ``day-worker``: healthy adult sleeping 23:00-07:00 with the long-range
+#: sleep/wake exponents of Ivanov et al. (1999) (wake ~1.05, sleep ~0.85; from memory), an
+#: LF (~0.1 Hz) oscillation larger awake and a respiratory one larger asleep (LF/HF about 3
+#: awake and 1.4 asleep; Vanoli et al. 1995 report 4 +- 1.4 and 1.22 +- 0.33 in NREM), tuned
+#: so that the short-scale alpha1 is about 1.1 awake and 0.9 asleep (healthy ~1.2 +- 0.2,
+#: Peng et al. 1995; from memory).  ``night-shift``: the same physiology sleeping
+#: 09:00-16:00.  ``heart-failure``: shorter mean interval, low variability, almost no LF
+#: power, flattened day/night difference, steep long-range spectrum (beta = 2 alpha - 1 ~
+#: 1.4-1.5) and low alpha1 (~0.8: CHF ~0.8 +- 0.2 in Peng et al. 1995; alpha1 < 0.75
+#: predicted mortality after MI, Huikuri et al. 2000), after the steep slopes of Huikuri et
+#: al. (1998) (from memory).  ``truth["expected_exponents"]`` of a simulation states the
+#: alpha1 each profile implies.
 PROFILES: Mapping[str, SimulationProfile] = MappingProxyType({
     "day-worker": SimulationProfile(),
     "night-shift": SimulationProfile(name="night-shift",
@@ -382,8 +261,8 @@ PROFILES: Mapping[str, SimulationProfile] = MappingProxyType({
     "heart-failure": SimulationProfile(
         name="heart-failure", nn_wake_ms=690.0, nn_sleep_ms=730.0, circadian_amp_ms=5.0,
         alpha_wake=1.25, alpha_sleep=1.18, sd_wake_ms=35.0, sd_sleep_ms=30.0,
-        white_sd_ms=7.0, resp_amp_wake_ms=3.0, resp_amp_sleep_ms=4.0,
-        ectopic_rate=0.008, ventricular_share=0.7),
+        white_sd_ms=8.0, resp_amp_wake_ms=4.0, resp_amp_sleep_ms=6.0,
+        ectopic_rate=0.008, ventricular_share=0.7, lf_sd_wake_ms=3.0, lf_sd_sleep_ms=2.0),
 })
 
 
@@ -442,8 +321,51 @@ def _blended_fluctuation(state: np.ndarray, alphas: tuple[float, float], blend: 
             w[-2 * post:] = np.cos(0.5 * np.pi * ramp)
         x[lo:hi] += w * piece
         segs.append({"state": "sleep" if state[a] else "wake", "sinus_first": a,
-                     "sinus_last": b - 1, "alpha": alpha, "model": model})
+                     "sinus_last": b - 1, "alpha": alpha, "model": model, "n_path": hi - lo})
     return x, segs
+
+
+def _state_exponents(prof: SimulationProfile, state: str, n_path: int,
+                     nn_s: float) -> tuple[float, float, float]:
+    """(alpha1, alpha2, alpha_long) of the expected DFA-1 fluctuation function of one state's model
+    (see :func:`tfhrv._synth_model.expected_exponents`)."""
+    alpha = float(getattr(prof, f"alpha_{state}"))
+    k = np.arange(int(LONG_SCALES[-1]) + 1)
+    rho = (fgn_autocovariance(alpha, k) if alpha < 1.0
+           else powerlaw_acov(k, 2.0 * alpha - 1.0, n_path))
+    return expected_exponents(
+        rho, nn_s=nn_s, sd_ms=getattr(prof, f"sd_{state}_ms"), white_sd_ms=prof.white_sd_ms,
+        resp_hz=prof.resp_hz, resp_amp_ms=getattr(prof, f"resp_amp_{state}_ms"),
+        lf_hz=prof.lf_hz, lf_bandwidth_hz=prof.lf_bandwidth_hz,
+        lf_sd_ms=getattr(prof, f"lf_sd_{state}_ms"))
+
+
+def _model_description(prof: SimulationProfile) -> dict[str, Any]:
+    """The additive components of the sinus-interval model and their parameters (truth)."""
+    def states(fmt: str) -> dict[str, float]:
+        return {st: getattr(prof, fmt.format(st)) for st in ("wake", "sleep")}
+
+    r = float(np.exp(-np.pi * prof.lf_bandwidth_hz / LF_GRID_HZ))
+    return {
+        "formula": "RR_k = m(t_k) + sd(t_k) x_k + white e_k + A(t_k) sin(2 pi f_r t_k + phi)"
+                   " + sd_LF(t_k) L(t_k)",
+        "mean": {"nn_ms": states("nn_{}_ms"), "circadian_amp_ms": prof.circadian_amp_ms,
+                 "circadian_peak_hour": prof.circadian_peak_hour},
+        "scaling": {"domain": "beat", "sd_ms": states("sd_{}_ms"), "alpha": states("alpha_{}"),
+                    "model": "per segment: fGn (Davies-Harte) if alpha < 1, else Timmer-Koenig "
+                             "1/f^beta noise, beta = 2 alpha - 1"},
+        "white": {"domain": "beat", "sd_ms": prof.white_sd_ms},
+        "respiratory": {"domain": "time", "kind": "sinusoid of random phase",
+                        "frequency_hz": prof.resp_hz, "amplitude_ms": states("resp_amp_{}_ms")},
+        "lf": {"domain": "time", "kind": "band-pass AR(2) resonance (narrow-band Gaussian "
+                                         "oscillation), unit variance, read at the beat times "
+                                         "by linear interpolation",
+               "filter": "H(z) = (1 - z^-2) / (1 - 2 r cos(w0) z^-1 + r^2 z^-2), "
+                         "w0 = 2 pi f0 / fs, r = exp(-pi B / fs)",
+               "grid_hz": LF_GRID_HZ, "centre_hz": prof.lf_hz,
+               "bandwidth_hz": prof.lf_bandwidth_hz, "pole_radius": round(r, 12),
+               "sd_ms": states("lf_sd_{}_ms")},
+    }
 
 
 def _sleep_weight(t: np.ndarray, periods: list[tuple[float, float]], ramp_s: float) -> np.ndarray:
@@ -517,7 +439,13 @@ def simulate_recording(
         ``end_s``, ``start``, ``end``), ``segments`` (list: ``state``, ``alpha``,
         ``beta`` = 2 alpha - 1, ``model`` ("fGn" or "power-law"), ``hurst_class`` and
         ``hurst`` (H of the fGn or fBm class), ``first_index``, ``last_index``,
-        ``start_s``, ``end_s``), ``ectopic`` (columns ``index``, ``label``, ``time_s``,
+        ``start_s``, ``end_s``, ``median_nn_ms``, ``alpha1_expected``, ``alpha2_expected``
+        and ``alpha_long_expected``: the DFA-1 exponents over 4..16, 16..64 and 64..1024
+        beats that the segment's model implies), ``components`` (the additive parts of the
+        model and their parameters), ``expected_exponents`` (``alpha1``, ``alpha2`` and
+        ``alpha_long`` per state for a
+        nominal segment, the scales, and how they were obtained), ``ectopic`` (columns
+        ``index``, ``label``, ``time_s``,
         ``coupling_ratio``, ``sinus_ms``, ``next_sinus_ms``), ``artifact`` (columns
         ``index``, ``kind``, ``label``, ``time_s``), ``gap`` (columns ``index``,
         ``start_s``, ``end_s``, ``requested_start_s``, ``requested_duration_s``),
@@ -528,12 +456,13 @@ def simulate_recording(
     -----
     Sinus intervals are generated on the beat index k with approximate beat times t_k:
 
-        RR_k = m(t_k) + sd(t_k) x_k + sigma_w e_k + A(t_k) sin(2 pi f_r t_k + phi),
+        RR_k = m(t_k) + sd(t_k) x_k + sigma_w e_k + A(t_k) sin(2 pi f_r t_k + phi)
+               + sd_LF(t_k) L(t_k),
 
     with m(t) = nn_wake + (nn_sleep - nn_wake) s(t) + C cos(2 pi (h(t) - h_peak)/24),
     s(t) in [0, 1] the sleep weight (raised-cosine ramps of ``transition_min``), h(t) the
-    clock hour, sd(t) and A(t) interpolated between the wake and sleep values by s(t),
-    e_k white noise and x_k the scaling component.  For each sleep or wake segment
+    clock hour, sd(t), A(t) and sd_LF(t) interpolated between the wake and sleep values by
+    s(t), e_k white noise and x_k the scaling component.  For each sleep or wake segment
     (beats whose first-pass time falls inside or outside a sleep period) x is an
     independent path of expected variance 1, centred on its own mean, with the state's
     exponent: fGn with H = alpha for alpha < 1 (Davies & Harte 1987); for alpha >= 1,
@@ -543,9 +472,28 @@ def simulate_recording(
     cross-fades with weights cos and sin over 2 ``blend_beats`` beats, so the variance
     stays 1.  Beat times are the running sum of the intervals; t_k is refined by three
     fixed-point passes.  Segment means are zero, so the fluctuation does not shift the
-    sleep boundaries in clock time.  The model has no low-frequency (~0.1 Hz) baroreflex
-    oscillation, so the short-scale alpha1 of the healthy-like profiles (about 0.9 awake)
-    is below the ~1.2 reported for healthy subjects by Peng et al. (1995).
+    sleep boundaries in clock time.
+
+    L(t) is the low-frequency (baroreflex, Mayer-wave) rhythm: a unit-variance Gaussian
+    narrow-band oscillation, white noise through the resonance H(z) = (1 - z^-2) /
+    (1 - 2 r cos(w0) z^-1 + r^2 z^-2) on a 4 Hz time grid (w0 = 2 pi ``lf_hz`` / 4,
+    r = exp(-pi ``lf_bandwidth_hz`` / 4): power peaks near ``lf_hz`` with half-power width
+    ``lf_bandwidth_hz``; the zero at 0 Hz keeps it out of the long-range scaling), read at
+    t_k by linear interpolation.  With a period of about 10 beats it steepens the DFA
+    fluctuation function over 4-16 beats: healthy-like profiles reach alpha1 about 1.1
+    awake and 0.9 asleep (Peng et al. 1995 report ~1.2 in healthy subjects; from memory),
+    and the LF/HF balance moves towards HF in sleep (Vanoli et al. 1995).
+
+    ``expected_exponents`` and the per-segment ``alpha1_expected`` and
+    ``alpha_long_expected`` are exact for the stationary Gaussian model of each state:
+    E F^2(n) = tr(Q L Sigma L^T) / n (L the cumulative-sum matrix, Q the projection that
+    removes a line, Sigma the beat-domain autocovariance, the sum of the components'
+    with the state's mean interval as beat spacing), and the exponent is the least-squares
+    slope of log sqrt(E F^2) on log n.  The mean alpha1 of 5-min windows agrees within
+    0.01 (scripts/mc_synth_scaling.py); DFA-1 over 64..1024 beats lies about 0.01 below
+    the component exponent alpha, as the short-scale parts add a near-constant to F^2.
+    The same plateau lowers alpha2 (16..64 beats) of the healthy-like profiles to about
+    0.83 awake and 0.76 asleep, below the ~1.0 of Peng et al. (1995; from memory).
 
     Premature beats (rate ``ectopic_rate``) shorten interval i to c RR_i with c ~
     U(0.55, 0.75) (``V``) or U(0.60, 0.80) (``S``).  A ventricular beat leaves the sinus
@@ -570,6 +518,12 @@ def simulate_recording(
     Peng C-K, Havlin S, Stanley HE, Goldberger AL. Quantification of scaling exponents and
     crossover phenomena in nonstationary heartbeat time series. Chaos 1995;5:82-87.
     doi:10.1063/1.166141
+    Vanoli E, Adamson PB, Ba-Lin, et al. Heart rate variability during specific sleep
+    stages. Circulation 1995;91:1918-1922. doi:10.1161/01.CIR.91.7.1918
+    Huikuri HV, Mäkikallio TH, Peng C-K, et al. Fractal correlation properties of R-R
+    interval dynamics and mortality in patients with depressed left ventricular function
+    after an acute myocardial infarction. Circulation 2000;101:47-53.
+    doi:10.1161/01.CIR.101.1.47
 
     Examples
     --------
@@ -640,12 +594,20 @@ def simulate_recording(
                                    int(prof.blend_beats), gen)
     white = gen.standard_normal(n_sinus) * prof.white_sd_ms
     resp_phase = gen.uniform(0, 2 * np.pi)
+    lf_on = prof.lf_sd_wake_ms > 0 or prof.lf_sd_sleep_ms > 0
+    if lf_on:  # unit-variance LF oscillation on a 4 Hz grid well past the last beat
+        lf_grid = lf_resonance(int(1.1 * span * LF_GRID_HZ) + 2, prof.lf_hz,
+                               prof.lf_bandwidth_hz, gen)
+        grid_i = np.arange(lf_grid.size, dtype=np.float64)
     for _ in range(3):
         s = _sleep_weight(t, periods, ramp_s)
         sd = prof.sd_wake_ms + (prof.sd_sleep_ms - prof.sd_wake_ms) * s
         amp = prof.resp_amp_wake_ms + (prof.resp_amp_sleep_ms - prof.resp_amp_wake_ms) * s
         resp = amp * np.sin(2 * np.pi * prof.resp_hz * t + resp_phase)
         nn = mean_nn(t, s) + sd * x + white + resp
+        if lf_on:
+            lf_sd = prof.lf_sd_wake_ms + (prof.lf_sd_sleep_ms - prof.lf_sd_wake_ms) * s
+            nn += lf_sd * np.interp(t * LF_GRID_HZ, grid_i, lf_grid)
         nn = np.maximum(nn, 250.0)  # physiological floor; not reached with the shipped profiles
         t = np.cumsum(nn) / 1000.0
 
@@ -744,15 +706,24 @@ def simulate_recording(
             continue
         alpha = float(sg["alpha"])
         fgn_class = sg["model"] == "fGn"
+        nn_seg = float(np.median(nn[sg["sinus_first"]:sg["sinus_last"] + 1]))
+        a1, a2, al = _state_exponents(prof, sg["state"], int(sg["n_path"]), nn_seg / 1000.0)
         seg_rows.append({"state": sg["state"], "alpha": alpha, "beta": round(2 * alpha - 1, 12),
                          "model": sg["model"], "hurst_class": "fGn" if fgn_class else "fBm",
                          "hurst": round(alpha if fgn_class else alpha - 1.0, 12),
                          "first_index": i0,
                          "last_index": i1, "start_s": round(float(times[i0]), 4),
-                         "end_s": round(float(times[i1]), 4)})
+                         "end_s": round(float(times[i1]), 4),
+                         "median_nn_ms": round(nn_seg, 4), "alpha1_expected": round(a1, 4),
+                         "alpha2_expected": round(a2, 4), "alpha_long_expected": round(al, 4)})
 
     def clock(sec: float) -> str:
         return (start + dt.timedelta(seconds=sec)).isoformat()
+
+    nominal = {"wake": (24.0 - prof.schedule.hours) * 3.6e6 / prof.nn_wake_ms,
+               "sleep": prof.schedule.hours * 3.6e6 / prof.nn_sleep_ms}
+    expect = {st: _state_exponents(prof, st, int(nominal[st]), getattr(prof, f"nn_{st}_ms") / 1e3)
+              for st in ("wake", "sleep")}
 
     truth: dict[str, Any] = {
         "generator": "tfhrv.synth.simulate_recording",
@@ -766,6 +737,24 @@ def simulate_recording(
         "sleep_periods": [{"start_s": a, "end_s": b, "start": clock(a), "end": clock(b)}
                           for a, b in periods],
         "segments": seg_rows,
+        "components": _model_description(prof),
+        "expected_exponents": {
+            "alpha1": {st: round(v[0], 4) for st, v in expect.items()},
+            "alpha2": {st: round(v[1], 4) for st, v in expect.items()},
+            "alpha_long": {st: round(v[2], 4) for st, v in expect.items()},
+            "alpha1_scales": ALPHA1_SCALES.tolist(),
+            "alpha2_scales": ALPHA2_SCALES.tolist(),
+            "alpha_long_scales": LONG_SCALES.tolist(),
+            "nominal_segment_beats": {st: int(v) for st, v in nominal.items()},
+            "method": "slope of log sqrt(E F^2(n)) on log n, E F^2 the expected DFA-1 "
+                      "fluctuation of the state's model (the sum of the components' "
+                      "autocovariances; beat spacing of the time-domain components = the "
+                      "state's mean interval; power-law paths as long as a nominal segment), "
+                      "by the exact trace formula E F^2(n) = tr(Q L Sigma L^T)/n; per "
+                      "segment the same with its own length and median interval",
+            "check": "the Monte-Carlo mean of DFA-1 alpha1 over 5-min windows agrees within "
+                     "0.02 (scripts/mc_synth_scaling.py)",
+        },
         "ectopic": {
             "index": e_new.tolist(),
             "label": lab[ect[ok_e]].tolist(),
