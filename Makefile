@@ -13,6 +13,7 @@ $(VENV)/.installed: pyproject.toml
 
 demo: $(VENV)/.installed
 	$(VENV)/bin/tfhrv inspect demo_data/sw01_day_worker.csv.gz
+	$(VENV)/bin/tfhrv demo
 
 test: $(VENV)/.installed
 	$(PY) -m pytest -q

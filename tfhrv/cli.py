@@ -152,6 +152,80 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
     return 0
 
 
+def _pipeline(rec, options, rhythm_options=None):
+    """read -> clean -> scan -> rhythm: the tree with its /rhythm group, and the table."""
+    import xarray as xr
+
+    from tfhrv.clean import clean
+    from tfhrv.rhythm import RhythmOptions, rhythm_dataset, rhythm_table
+    from tfhrv.timegrid import scan
+
+    tree = scan(clean(rec), options=options)
+    ropt = rhythm_options or RhythmOptions()
+    table = rhythm_table(tree, options=ropt)
+    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt))
+    return tree, table
+
+
+def _cmd_figures(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from tfhrv.io.datatree import open_tree
+    from tfhrv.plots import save_all
+
+    path = Path(args.scan_file)
+    if not path.is_file():
+        raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    out = Path(args.directory)
+    if out.exists() and not out.is_dir():
+        raise ValueError(f"{out}: exists and is not a folder")
+    written = save_all(open_tree(path), out, formats=tuple(args.formats))
+    print(f"wrote {len(written)} files to {out}")
+    return 0
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    from tfhrv.io.datatree import write_tree
+    from tfhrv.report import write_report
+
+    _check_output(args.output, (".html", ".htm"))
+    tree, table = _pipeline(_read(args), _scan_options(args))
+    path = write_report(tree, args.output, rhythm_table=table)
+    if args.scan_output:
+        _check_output(args.scan_output, (".nc",))
+        write_tree(tree, args.scan_output)
+    print(f"wrote {path}: FFT-slope verdict {tree['/record'].attrs['verdict']}")
+    return 0
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    import tfhrv
+    from tfhrv.io.datatree import atomic_write, write_tree
+    from tfhrv.io.readers import read_recording
+    from tfhrv.report import write_report
+    from tfhrv.timegrid import ScanOptions
+
+    demo = Path(tfhrv.__file__).resolve().parents[1] / "demo_data" / "sw01_day_worker.csv.gz"
+    if not demo.is_file():
+        raise ValueError(f"{demo}: demo recording not found (it ships with the source tree; "
+                         "run tfhrv demo from a checkout, or tfhrv synth to make a recording)")
+    out = Path(args.output_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    print(f"demo recording: {demo.name} (invented 48-h day worker of a fictional shift-work "
+          "study)")
+    tree, table = _pipeline(read_recording(demo), ScanOptions())
+    write_tree(tree, out / "sw01_day_worker.nc")
+    atomic_csv = out / "sw01_day_worker.rhythm.csv"
+    atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
+    report = write_report(tree, out / "sw01_day_worker_report.html", rhythm_table=table)
+    print(f"verdict: {tree['/record'].attrs['verdict']}")
+    print(f"wrote {out / 'sw01_day_worker.nc'} and {atomic_csv}")
+    print(f"report: {report.resolve()}")
+    return 0
+
+
 def _cmd_synth(args: argparse.Namespace) -> int:
     import datetime as dt
 
@@ -242,6 +316,43 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--sleep-log", help="CSV with record,rest_start,rest_end (takes precedence)")
     p.add_argument("--csv", help="table output (default: SCAN.rhythm.csv)")
     p.set_defaults(func=_cmd_rhythm)
+
+    p = sub.add_parser("figures", help="all figures of a scan file as PNG/SVG",
+                       description="Renders the overview, spectrum, DFA, wavelet log-scale "
+                       "diagram, time x scale maps, stationarity timeline and rhythm figures of "
+                       "a scan file. " + CAUTION)
+    p.add_argument("scan_file", help="file written by tfhrv scan (.nc)")
+    p.add_argument("-d", "--directory", required=True, help="output folder")
+    p.add_argument("--formats", nargs="+", choices=("png", "svg"), default=["png", "svg"],
+                   help="file formats (png svg)")
+    p.set_defaults(func=_cmd_figures)
+
+    p = sub.add_parser("report", help="the whole pipeline into one self-contained HTML file",
+                       description="Reads, cleans, scans and analyses the day/night rhythm of a "
+                       "recording and writes one HTML report with everything embedded. " + CAUTION)
+    p.add_argument("recording", help="beat-interval file")
+    p.add_argument("-o", "--output", required=True, help="report file (.html)")
+    p.add_argument("--scan-output", help="also keep the scan file (.nc)")
+    g = p.add_argument_group("windows and estimators")
+    g.add_argument("--short-window", type=float, default=5.0, help="short window, min (5)")
+    g.add_argument("--short-hop", type=float, default=5.0, help="short hop, min (5)")
+    g.add_argument("--long-window", type=float, default=4.0, help="long window, h (4)")
+    g.add_argument("--long-hop", type=float, default=1.0, help="long hop, h (1)")
+    g.add_argument("--dfa-order", type=int, choices=(1, 2, 3), default=1,
+                   help="DFA detrending order (1)")
+    g.add_argument("--vanishing-moments", type=int, default=3,
+                   help="wavelet vanishing moments (3)")
+    _add_reader_options(p)
+    p.set_defaults(func=_cmd_report)
+
+    p = sub.add_parser("demo", help="the report on the shipped demo recording",
+                       description="Runs the whole pipeline on the shipped invented demo "
+                       "recording (a day worker of a fictional shift-work study), writes the scan "
+                       "file, the rhythm table and the HTML report, and prints the report's "
+                       "path. " + CAUTION)
+    p.add_argument("-o", "--output-dir", default="demo_output",
+                   help="output folder (demo_output)")
+    p.set_defaults(func=_cmd_demo)
 
     p = sub.add_parser("synth", help="synthetic recording with known exponents",
                        description="Writes a synthetic multi-day beat-interval recording with "
