@@ -226,6 +226,12 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     return 0
 
 
+def _cmd_cohort(args: argparse.Namespace) -> int:
+    from tfhrv.cohort import run_from_args
+
+    return int(run_from_args(args))
+
+
 def _cmd_synth(args: argparse.Namespace) -> int:
     import datetime as dt
 
@@ -353,6 +359,21 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("-o", "--output-dir", default="demo_output",
                    help="output folder (demo_output)")
     p.set_defaults(func=_cmd_demo)
+
+    p = sub.add_parser("cohort", help="many recordings on dask; study table; group comparison",
+                       description="Runs scan and rhythm on every recording of a manifest (CSV "
+                       "with path, record, group, optional start or start_time_of_day, sleep_log, "
+                       "extra columns; or a folder or quoted glob of recordings) on a dask "
+                       "cluster, skips records already done, and writes OUTDIR/records/<record>.nc"
+                       ", study.parquet/.csv, comparison.csv/.png, short_exponents.zarr and "
+                       "failures.csv. " + CAUTION)
+    p.add_argument("manifest", help="manifest CSV, folder, or quoted glob pattern")
+    p.add_argument("-o", "--output", required=True, help="output folder")
+    p.add_argument("--workers", type=int, help="local worker processes (default: CPU count; "
+                   "0: in this process, without dask)")
+    p.add_argument("--scheduler", help="address of a running dask scheduler (tcp://host:port)")
+    p.add_argument("--report", action="store_true", help="also write reports/<record>.html")
+    p.set_defaults(func=_cmd_cohort)
 
     p = sub.add_parser("synth", help="synthetic recording with known exponents",
                        description="Writes a synthetic multi-day beat-interval recording with "

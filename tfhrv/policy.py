@@ -328,7 +328,7 @@ def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray
         return None
     if not np.isfinite(raw.exponent):
         return None
-    return calibrate(raw, estimator=preset)
+    return calibrate(raw, estimator=preset, n=int(np.size(nn_ms)))
 
 
 #: exponent name -> preset for the whole record (and the long tier).

@@ -56,19 +56,29 @@ class CalibrationTable:
     n_rep: int
 
     def curves(self, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """Mean, SD and quantile curves over ``truth`` at length ``n`` (log-n interpolation,
-        clipped to the tabulated lengths)."""
-        logl = np.log(self.lengths.astype(float))
+        """Mean, SD and quantile curves over ``truth`` at length ``n``.
+
+        Linear interpolation in log n between the two nearest tabulated lengths whose
+        column holds values, clipped to the tabulated range.  A length whose whole column
+        is NaN (the preset cannot run at that length) is left out.
+        """
+        ok = np.isfinite(self.mean).any(axis=0)
+        lengths = self.lengths[ok].astype(float)
+        cols = [a[:, ok] for a in (self.mean, self.sd, self.q_low, self.q_high)]
+        if lengths.size == 0:
+            nan = np.full(self.truth.shape, np.nan)
+            return nan, nan, nan, nan
+        if lengths.size == 1:
+            return tuple(c[:, 0] for c in cols)
+        logl = np.log(lengths)
         x = float(np.clip(np.log(max(n, 1)), logl[0], logl[-1]))
-        j = int(np.clip(np.searchsorted(logl, x) - 1, 0, logl.size - 2)) if logl.size > 1 else 0
-        if logl.size == 1:
-            return self.mean[:, 0], self.sd[:, 0], self.q_low[:, 0], self.q_high[:, 0]
+        j = int(np.clip(np.searchsorted(logl, x, side="right") - 1, 0, logl.size - 2))
         w = (x - logl[j]) / (logl[j + 1] - logl[j])
-
-        def at(a):
-            return (1 - w) * a[:, j] + w * a[:, j + 1]
-
-        return at(self.mean), at(self.sd), at(self.q_low), at(self.q_high)
+        if w <= 0.0:
+            return tuple(c[:, j] for c in cols)
+        if w >= 1.0:
+            return tuple(c[:, j + 1] for c in cols)
+        return tuple((1 - w) * c[:, j] + w * c[:, j + 1] for c in cols)
 
 
 @functools.cache
@@ -100,7 +110,7 @@ def _invert(curve: np.ndarray, truth: np.ndarray, value: float) -> float:
     return float(np.interp(value, c, truth))
 
 
-def calibrate(fit: ScalingFit, /, *, estimator: str) -> ScalingFit:
+def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> ScalingFit:
     """Replace a fit's exponent, SE and interval by their calibrated versions.
 
     Parameters
@@ -109,6 +119,9 @@ def calibrate(fit: ScalingFit, /, *, estimator: str) -> ScalingFit:
         Output of the preset ``estimator`` (:func:`tfhrv.estimators.presets.estimate`).
     estimator : str
         The preset name.
+    n : int, optional
+        Series length in beats, the unit of the tables; default ``fit.n_obs`` (which
+        counts resampled samples, not beats, for the resampled spectral preset).
 
     Returns
     -------
@@ -128,7 +141,7 @@ def calibrate(fit: ScalingFit, /, *, estimator: str) -> ScalingFit:
     (True, True)
     """
     table = load_table(estimator)
-    mean, sd, q_low, q_high = table.curves(int(fit.n_obs))
+    mean, sd, q_low, q_high = table.curves(int(fit.n_obs if n is None else n))
     raw = float(fit.exponent)
     est = _invert(mean, table.truth, raw)
     lo = _invert(q_high, table.truth, raw)

@@ -1,0 +1,238 @@
+"""Tests of tfhrv.estimators.calibrate (bias correction and Neyman-belt intervals).
+
+Expected values come from (a) theory: the exponent of fGn / fBm of known H (alpha = H
+and H + 1, beta = 2H - 1 and 2H + 1; Eke et al. 2000, doi:10.1007/s004249900135; Kiyono
+2015, doi:10.1103/PhysRevE.91.052820) and the exact DFA-1 fluctuation function of white
+noise (REFERENCES.md 3.3); (b) an independent fGn generator, the PyPI package ``fbm``;
+(c) Monte-Carlo cases with fixed seeds.  The full grid (H = 0.1 ... 0.9, two lengths,
+two generators, 100 seeds) is ``scripts/validate_estimators.py``; its output is
+docs/validation_estimators.md.  This file keeps a representative subset.
+
+Tolerances (c): the mean of R calibrated estimates differs from the truth by the
+Monte-Carlo error of that mean (sd / sqrt(R)) plus the error of the table's mean curve it
+was inverted through (sd / sqrt(n_rep), n_rep = the table's replicates per cell), which
+are independent; the bias check allows 4 x sd x sqrt(1/R + 1/n_rep), two-sided false
+alarm about 6e-5 for a Gaussian mean.  Coverage: with true coverage 0.95, P(fewer than 7
+of 10 intervals cover) = 0.001 (binomial).
+
+Seeds start at 10^9 so that no draw repeats one used to build the calibration tables
+(scripts/make_calibration.py uses seeds below 10^7).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from tfhrv.estimators.calibrate import calibrate, load_table
+from tfhrv.estimators.presets import PRESETS, estimate
+from tfhrv.synth import fgn
+
+SEED0 = 1_000_000_000
+R = 10
+N14, N16 = 2**14, 2**16
+CHECKED = ("alpha1", "alpha2", "alpha_long", "beta_wavelet_long", "beta_spectral_long")
+
+
+def _nn(path: np.ndarray) -> np.ndarray:
+    """NN-like series 800 ms + 50 ms x standardised path (as the calibration tables)."""
+    return 800.0 + 50.0 * (path - path.mean()) / path.std()
+
+
+def _truth(preset: str, process: str, hurst: float) -> float:
+    alpha = hurst if process == "fGn" else hurst + 1.0
+    return alpha if preset.startswith("alpha") else 2.0 * alpha - 1.0
+
+
+def _covers(lo: np.ndarray, hi: np.ndarray, true: float) -> np.ndarray:
+    """Interval contains truth; one NaN end means unbounded on that side (calibrate's
+    documented meaning: the raw value is beyond the tabulated range); two NaN ends = no
+    interval, a miss."""
+    lo, hi = np.asarray(lo), np.asarray(hi)
+    ok = (np.where(np.isnan(lo), -np.inf, lo) <= true) & \
+         (true <= np.where(np.isnan(hi), np.inf, hi))
+    return ok & ~(np.isnan(lo) & np.isnan(hi))
+
+
+def _run(preset: str, paths) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    est, lo, hi = [], [], []
+    for path in paths:
+        cal = calibrate(estimate(preset, _nn(path)), estimator=preset)
+        est.append(cal.exponent)
+        lo.append(cal.ci[0])
+        hi.append(cal.ci[1])
+    return np.array(est), np.array(lo), np.array(hi)
+
+
+def _bias_tolerance(est: np.ndarray, preset: str) -> float:
+    return 4.0 * float(est.std(ddof=1)) * np.sqrt(1.0 / est.size + 1.0 / load_table(preset).n_rep)
+
+
+def _check_calibrated(preset: str, process: str, hurst: float, n: int, paths) -> None:
+    true = _truth(preset, process, hurst)
+    est, lo, hi = _run(preset, paths)
+    assert abs(est.mean() - true) <= _bias_tolerance(est, preset), (est.mean(), true)
+    assert int(_covers(lo, hi, true).sum()) >= 7, (lo, hi, true)
+
+
+# A table column that is all NaN (the preset cannot run at that length) must not spill
+# into a neighbouring length: CalibrationTable.curves interpolates as
+# (1 - w) * a[:, j] + w * a[:, j + 1], and at n equal to a tabulated length with w = 1,
+# 0 * NaN = NaN.  beta_wavelet_long is tabulated at 4096 (all NaN) and 16384.
+
+
+CASES = [("fGn", 0.3), ("fGn", 0.7), ("fBm", 0.5)]
+
+
+@pytest.mark.parametrize(("process", "hurst"), CASES)
+def test_alpha2_calibrated_fgn_fbm(process, hurst):
+    # Source (a)+(c): alpha2 of fGn (H) / fBm (H + 1), tfhrv Davies-Harte generator.
+    paths = [fgn(N14, hurst, rng=SEED0 + s) for s in range(R)]
+    if process == "fBm":
+        paths = [np.cumsum(p) for p in paths]
+    _check_calibrated("alpha2", process, hurst, N14, paths)
+
+
+@pytest.mark.parametrize("n", [
+    N14,
+    N16,
+])
+@pytest.mark.parametrize(("process", "hurst"), CASES)
+def test_beta_wavelet_long_calibrated_fgn_fbm(process, hurst, n):
+    # Source (a)+(c): wavelet beta of fGn (2H - 1) / fBm (2H + 1).
+    paths = [fgn(n, hurst, rng=SEED0 + 100 + s) for s in range(R)]
+    if process == "fBm":
+        paths = [np.cumsum(p) for p in paths]
+    _check_calibrated("beta_wavelet_long", process, hurst, n, paths)
+
+
+@pytest.fixture
+def global_numpy_seed():
+    """The ``fbm`` package draws from NumPy's global state; restore it afterwards."""
+    state = np.random.get_state()  # noqa: NPY002 - the package's only interface
+    yield np.random.seed  # noqa: NPY002
+    np.random.set_state(state)  # noqa: NPY002
+
+
+def test_alpha2_calibrated_on_independent_generator(global_numpy_seed):
+    # Source (b): fGn with H = 0.7 from the PyPI package fbm (its own Davies-Harte code).
+    fbm_pkg = pytest.importorskip("fbm")
+    gen = fbm_pkg.FBM(n=N14, hurst=0.7, method="daviesharte")
+    paths = []
+    for s in range(R):
+        global_numpy_seed(SEED0 % 2**32 + 200 + s)
+        paths.append(gen.fgn())
+    assert gen.method == "daviesharte"  # no fallback to another method
+    _check_calibrated("alpha2", "fGn", 0.7, N14, paths)
+
+
+def _dfa1_white_alpha1() -> float:
+    """Least-squares slope of log sqrt(E F^2(s)) on log s, s = 4..16, with the exact
+    DFA-1 white-noise E F^2(s) = (s^2 - 4) / (15 s) (REFERENCES.md 3.3)."""
+    s = np.arange(4, 17, dtype=float)
+    return float(np.polyfit(np.log(s), 0.5 * np.log((s * s - 4) / (15 * s)), 1)[0])
+
+
+def test_alpha1_white_noise_raw_0583_calibrated_05(rng):
+    # Source (a): REFERENCES 3.3 -- expected raw alpha1 of white noise 0.583, not 0.5;
+    # calibration must map it to the fGn value H = 0.5.
+    assert_allclose(_dfa1_white_alpha1(), 0.583, atol=5e-4)
+    raw, cal = [], []
+    for _ in range(R):
+        fit = estimate("alpha1", _nn(rng.standard_normal(N14)))
+        raw.append(fit.exponent)
+        cal.append(calibrate(fit, estimator="alpha1").exponent)
+    raw, cal = np.array(raw), np.array(cal)
+    assert abs(raw.mean() - _dfa1_white_alpha1()) <= 4 * raw.std(ddof=1) / np.sqrt(R)
+    assert abs(cal.mean() - 0.5) <= _bias_tolerance(cal, "alpha1")
+
+
+def test_calibrate_keeps_raw_and_marks_calibrated():
+    fit = estimate("alpha2", _nn(fgn(N14, 0.6, rng=SEED0 + 300)))
+    cal = calibrate(fit, estimator="alpha2")
+    assert cal.calibrated and not fit.calibrated
+    assert cal.raw_exponent == fit.exponent
+    assert cal.exponent != fit.exponent  # the table's bias at alpha 0.6 is not exactly 0
+    assert cal.options["calibration"] == "alpha2"
+    assert cal.ci[0] < cal.exponent < cal.ci[1]
+    assert cal.se > 0
+    # everything but the calibrated fields is carried over
+    for name in ("kind", "n_obs", "n_points", "fit_range", "method", "intercept"):
+        assert getattr(cal, name) == getattr(fit, name)
+    np.testing.assert_array_equal(cal.y, fit.y)
+
+
+@pytest.mark.parametrize("preset", CHECKED)
+def test_table_mean_curves_increase(preset):
+    # The inversion needs E[estimate] strictly increasing in the truth.  Checked at the
+    # lengths validated here and in scripts/validate_estimators.py (2^14, 2^16); the
+    # spectral preset only over beta in [-0.4, 2.2]: its mean curve flattens at both ends
+    # of the grid (see docs/validation_estimators.md), so it is not invertible there.
+    table = load_table(preset)
+    keep = np.ones(table.truth.size, dtype=bool)
+    if preset == "beta_spectral_long":
+        keep = (table.truth >= -0.4) & (table.truth <= 2.2)
+    checked = 0
+    for k, n in enumerate(table.lengths):
+        col = table.mean[keep, k]
+        if n not in (N14, N16) or np.all(np.isnan(col)):
+            continue
+        assert np.all(np.diff(col) > 0), (n, col)
+        checked += 1
+    assert checked >= 2
+
+
+@pytest.mark.parametrize("preset", CHECKED)
+def test_calibrated_values_monotone_in_raw(preset):
+    fit = estimate(preset, _nn(fgn(N16, 0.5, rng=SEED0 + 400)))
+    mean = load_table(preset).curves(fit.n_obs)[0]
+    grid = np.linspace(np.nanmin(mean), np.nanmax(mean), 60)
+    out = np.array([(c.exponent, *c.ci) for c in (
+        calibrate(dataclasses.replace(fit, exponent=float(v)), estimator=preset)
+        for v in grid)])
+    for col in out.T:
+        good = col[np.isfinite(col)]
+        assert good.size >= 30
+        assert np.all(np.diff(good) >= 0)
+
+
+def test_out_of_range_raw_gives_nan_ends_not_numbers():
+    fit = estimate("alpha2", _nn(fgn(N14, 0.5, rng=SEED0 + 500)))
+    mean, _, q_low, q_high = load_table("alpha2").curves(fit.n_obs)
+    # far above every curve: no end can be inverted, exponent left uncorrected
+    far = calibrate(dataclasses.replace(fit, exponent=float(q_high.max()) + 0.5),
+                    estimator="alpha2")
+    assert np.isnan(far.ci[0]) and np.isnan(far.ci[1])
+    assert far.exponent == far.raw_exponent
+    low = calibrate(dataclasses.replace(fit, exponent=float(q_low.min()) - 0.5),
+                    estimator="alpha2")
+    assert np.isnan(low.ci[0]) and np.isnan(low.ci[1])
+    # above the 2.5 % curve's top but below the 97.5 % curve's: the upper end is open
+    # (NaN), the lower end is a number below the raw value
+    v = 0.5 * (float(mean.max()) + float(q_high.max()))
+    assert q_low.max() < v < q_high.max()
+    edge = calibrate(dataclasses.replace(fit, exponent=v), estimator="alpha2")
+    assert np.isnan(edge.ci[1])
+    assert np.isfinite(edge.ci[0]) and edge.ci[0] < v
+
+
+def test_load_table_unknown_preset_names_options():
+    with pytest.raises(ValueError, match="preset must be one of") as info:
+        load_table("alpha3")
+    for name in PRESETS:
+        assert repr(name) in str(info.value)
+    assert "'alpha3'" in str(info.value)
+
+
+@pytest.mark.parametrize("preset", [
+    p
+    if p == "beta_wavelet_long" else p for p in PRESETS])
+def test_curves_finite_at_every_tabulated_length(preset):
+    table = load_table(preset)
+    for k, n in enumerate(table.lengths):
+        finite = np.isfinite(table.mean[:, k])
+        if finite.any():
+            assert np.all(np.isfinite(table.curves(int(n))[0][finite])), n
