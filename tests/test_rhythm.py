@@ -1,0 +1,84 @@
+"""Day/night contrasts and cosinor on a scan (the xarray layer over tfhrv.rhythm_core)."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import numpy as np
+import pytest
+
+from tfhrv.clean import clean
+from tfhrv.rhythm import RhythmOptions, format_rhythm, read_sleep_log, rhythm_table
+from tfhrv.synth import simulate_recording
+from tfhrv.timegrid import scan
+
+START = dt.datetime(2026, 3, 2, 8, 0)
+
+
+@pytest.fixture(scope="module")
+def day_worker():
+    """24 h of the synthetic day worker (sleeps 23:00-07:00; ground truth in sim.truth)."""
+    sim = simulate_recording(days=1.0, start=START, profile="day-worker", rng=7)
+    return sim, scan(clean(sim.recording))
+
+
+def _row(table, variable, tier="short", day="all"):
+    r = table[(table.variable == variable) & (table.tier == tier) & (table.day == day)]
+    assert len(r) == 1
+    return r.iloc[0]
+
+
+def test_clock_windows_give_the_known_directions(day_worker):
+    _, tree = day_worker
+    table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
+    a1 = _row(table, "alpha1")
+    nn = _row(table, "nn_mean")
+    assert a1.period_source == "clock"
+    # Ivanov et al. 1999: lower short-term exponent asleep; the generator's truth says
+    # alpha1 about 0.90 asleep vs 1.12 awake.
+    assert a1.night_mean < a1.day_mean and a1.difference_high < 0
+    # longer NN intervals at night (the generator: 1000 vs 800 ms)
+    assert nn.difference_low > 100
+    assert nn.n_night > 50 and nn.n_day > 80
+    # cosinor of mean NN peaks within the sleep period 23:00-07:00 (acrophase mod 24 h)
+    peak = nn.acrophase_h
+    assert (peak >= 23) or (peak <= 7), peak
+    assert nn.cosinor_p < 1e-6
+    text = format_rhythm(table)
+    assert "alpha1 (short)" in text and "clock" in text
+
+
+def test_unknown_clock_uses_the_inferred_rest_period(day_worker):
+    sim, _ = day_worker
+    tree = scan(clean(sim.recording.with_start(None)))
+    table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
+    nn = _row(table, "nn_mean")
+    assert nn.period_source == "inferred rest period"
+    assert nn.acrophase_reference == "hours from start"
+    assert nn.difference > 100  # the inferred block holds the longest intervals
+    with pytest.raises(ValueError, match="--start"):
+        rhythm_table(tree, options=RhythmOptions(period="clock"))
+
+
+def test_sleep_log_takes_precedence(day_worker, tmp_path):
+    _, tree = day_worker
+    log = tmp_path / "sleep.csv"
+    log.write_text("record,rest_start,rest_end\nother,2026-03-02T10:00,2026-03-02T12:00\n"
+                   f"{tree.attrs['record_id']},2026-03-02T23:00,2026-03-03T07:00\n")
+    periods = read_sleep_log(log, tree.attrs["record_id"])
+    assert periods == [(dt.datetime(2026, 3, 2, 23), dt.datetime(2026, 3, 3, 7))]
+    table = rhythm_table(tree, options=RhythmOptions(n_boot=199), sleep_log=periods)
+    nn = _row(table, "nn_mean")
+    assert nn.period_source == "sleep log"
+    assert np.isfinite(nn.difference) and nn.difference > 100
+
+
+def test_sleep_log_errors_name_file_and_line(tmp_path):
+    from tfhrv.errors import RecordFormatError
+
+    bad = tmp_path / "log.csv"
+    bad.write_text("record,rest_start,rest_end\nr1,yesterday,today\n")
+    with pytest.raises(RecordFormatError, match="line 2"):
+        read_sleep_log(bad, "r1")
+    with pytest.raises(RecordFormatError, match="no rest period"):
+        read_sleep_log(bad, "r2")
