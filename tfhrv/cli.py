@@ -42,6 +42,18 @@ def _add_reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--record-id", help="record identifier (default: from the file)")
 
 
+def _add_scan_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("windows and estimators")
+    g.add_argument("--short-window", type=float, default=5.0, help="short window, min (5)")
+    g.add_argument("--short-hop", type=float, default=5.0, help="short hop, min (5)")
+    g.add_argument("--long-window", type=float, default=4.0, help="long window, h (4)")
+    g.add_argument("--long-hop", type=float, default=1.0, help="long hop, h (1)")
+    g.add_argument("--dfa-order", type=int, choices=(1, 2, 3), default=1,
+                   help="DFA detrending order (1)")
+    g.add_argument("--vanishing-moments", type=int, default=3,
+                   help="wavelet vanishing moments (3)")
+
+
 def _read(args: argparse.Namespace):
     from tfhrv.io.readers import read_recording
 
@@ -293,15 +305,7 @@ def build_parser() -> argparse.ArgumentParser:
                        "/short, /long and /record. " + CAUTION)
     p.add_argument("recording", help="beat-interval file")
     p.add_argument("-o", "--output", required=True, help="output file (.nc)")
-    g = p.add_argument_group("windows and estimators")
-    g.add_argument("--short-window", type=float, default=5.0, help="short window, min (5)")
-    g.add_argument("--short-hop", type=float, default=5.0, help="short hop, min (5)")
-    g.add_argument("--long-window", type=float, default=4.0, help="long window, h (4)")
-    g.add_argument("--long-hop", type=float, default=1.0, help="long hop, h (1)")
-    g.add_argument("--dfa-order", type=int, choices=(1, 2, 3), default=1,
-                   help="DFA detrending order (1)")
-    g.add_argument("--vanishing-moments", type=int, default=3,
-                   help="wavelet vanishing moments (3)")
+    _add_scan_options(p)
     _add_reader_options(p)
     p.set_defaults(func=_cmd_scan)
 
@@ -339,15 +343,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("recording", help="beat-interval file")
     p.add_argument("-o", "--output", required=True, help="report file (.html)")
     p.add_argument("--scan-output", help="also keep the scan file (.nc)")
-    g = p.add_argument_group("windows and estimators")
-    g.add_argument("--short-window", type=float, default=5.0, help="short window, min (5)")
-    g.add_argument("--short-hop", type=float, default=5.0, help="short hop, min (5)")
-    g.add_argument("--long-window", type=float, default=4.0, help="long window, h (4)")
-    g.add_argument("--long-hop", type=float, default=1.0, help="long hop, h (1)")
-    g.add_argument("--dfa-order", type=int, choices=(1, 2, 3), default=1,
-                   help="DFA detrending order (1)")
-    g.add_argument("--vanishing-moments", type=int, default=3,
-                   help="wavelet vanishing moments (3)")
+    _add_scan_options(p)
     _add_reader_options(p)
     p.set_defaults(func=_cmd_report)
 
