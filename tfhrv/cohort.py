@@ -96,7 +96,6 @@ __all__ = [
     "ManifestError",
     "NOT_COMPARED",
     "benjamini_hochberg",
-    "build_parser",
     "cliffs_delta",
     "cliffs_delta_ci",
     "compare_groups",
@@ -759,24 +758,8 @@ def format_summary(result: CohortResult, /) -> str:
     return "\n".join(lines)
 
 
-def build_parser(parser: argparse.ArgumentParser | None = None) -> argparse.ArgumentParser:
-    """The options of ``tfhrv cohort`` (added to ``parser`` when given)."""
-    p = parser or argparse.ArgumentParser(prog="python -m tfhrv.cohort")
-    p.description = ("Run scan and rhythm on every recording of a manifest (CSV with path, "
-                     "record, group, ...; or a folder or glob of recordings) on a dask "
-                     "cluster, skip records already done, and write the study table, group "
-                     "comparison and figure to OUTDIR.")
-    p.add_argument("manifest", help="manifest CSV, folder or quoted glob pattern")
-    p.add_argument("-o", "--output", required=True, help="output folder")
-    p.add_argument("--workers", type=int, help="local worker processes (default: CPU count;"
-                   " 0: run in this process without dask)")
-    p.add_argument("--scheduler", help="address of a running dask scheduler (tcp://...)")
-    p.add_argument("--report", action="store_true", help="also write an HTML report per record")
-    return p
-
-
 def run_from_args(args: argparse.Namespace) -> int:
-    """Run a cohort from parsed :func:`build_parser` options; exit status 1 if any failed."""
+    """Run a cohort from the parsed ``tfhrv cohort`` options; exit status 1 if any failed."""
     res = run_cohort(args.manifest, args.output, workers=args.workers,
                      scheduler=args.scheduler, options=CohortOptions(report=args.report))
     print(format_summary(res))
@@ -784,13 +767,10 @@ def run_from_args(args: argparse.Namespace) -> int:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m tfhrv.cohort MANIFEST -o OUTDIR [--workers N] [--scheduler ADDR]``."""
-    args = build_parser().parse_args(argv)
-    try:
-        return run_from_args(args)
-    except (RecordFormatError, ValueError, TypeError, OSError) as exc:
-        print(f"tfhrv: error: {exc}", file=sys.stderr)
-        return 2
+    """``python -m tfhrv.cohort ...``: the same as ``tfhrv cohort ...``."""
+    from tfhrv.cli import main as cli_main
+
+    return cli_main(["cohort", *(sys.argv[1:] if argv is None else argv)])
 
 
 if __name__ == "__main__":  # pragma: no cover - exercised through a subprocess in the tests
