@@ -18,7 +18,7 @@ import xarray as xr
 
 from tfhrv.clean import CleanResult, Reason
 from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import ScalingFit
+from tfhrv.estimators._fit import ScalingFit, convert_exponent
 from tfhrv.estimators.dfa import dfa_fluctuation, local_alpha
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS, band_powers, periodogram_psd
 from tfhrv.estimators.wavelet import logscale_diagram
@@ -91,10 +91,12 @@ def _window_fits(nn: np.ndarray, t: np.ndarray, tier: TierSpec, opt: ScanOptions
             for var, preset in _TIER_PRESETS[tier.scale].items()}
 
 
-def _as_beta(name: str, fit: ScalingFit) -> tuple[float, tuple[float, float]]:
-    if fit.kind == "beta":
-        return fit.exponent, (fit.ci[0], fit.ci[1])
-    return 2 * fit.exponent - 1, (2 * fit.ci[0] - 1, 2 * fit.ci[1] - 1)
+def _as_beta(fit: ScalingFit) -> tuple[float, tuple[float, float]]:
+    """Exponent and interval of a fit in beta units (beta = 2 alpha - 1)."""
+    def beta(v: float) -> float:
+        return convert_exponent(v, kind=fit.kind).beta
+
+    return beta(fit.exponent), (beta(fit.ci[0]), beta(fit.ci[1]))
 
 
 _PRIMARY_SOURCE = {
@@ -202,14 +204,14 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
         available = {}
         for est, src in _PRIMARY_SOURCE[tier.scale].items():
             if np.isfinite(v[src][w]):
-                lo, hi = _as_beta(src, fits[src])[1]
+                lo, hi = _as_beta(fits[src])[1]
                 available[est] = hi - lo
         choice = choose_estimator(st.category, available=available)
         v["estimator"][w] = ESTIMATORS.index(choice.estimator)
         v["reason"][w] = f"{st.category}: {choice.reason}"
         if choice.estimator != "none":
             src = _PRIMARY_SOURCE[tier.scale][choice.estimator]
-            beta, ci = _as_beta(src, fits[src])
+            beta, ci = _as_beta(fits[src])
             v["exponent"][w] = beta
             v["exponent_ci"][w] = ci
             v["exponent_se"][w] = fits[src].se * (1 if fits[src].kind == "beta" else 2)
