@@ -17,7 +17,8 @@ from tfhrv.clean import CleanResult
 from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit
 from tfhrv.estimators.calibrate import calibrate
-from tfhrv.estimators.presets import estimate, long_band
+from tfhrv.estimators.dfa import Fluctuation
+from tfhrv.estimators.presets import DFA_PRESETS, estimate, estimate_dfa, long_band
 
 __all__ = [
     "DECISION_TABLE",
@@ -25,6 +26,7 @@ __all__ = [
     "RecordAssessment",
     "assess_record",
     "calibrated_fit",
+    "calibrated_fits",
     "ESTIMATORS",
     "Choice",
     "FitnessThresholds",
@@ -331,6 +333,40 @@ def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray
     return calibrate(raw, estimator=preset, n=int(np.size(nn_ms)))
 
 
+def calibrated_fits(presets: dict[str, str], nn_ms: np.ndarray, /, *,
+                    beat_time_s: np.ndarray | None = None, order: int = 1,
+                    vanishing_moments: int = 3, dfa_scales: np.ndarray | None = None,
+                    ) -> tuple[dict[str, ScalingFit | None], Fluctuation | None]:
+    """Several calibrated presets on one series (name -> preset), the DFA ones from a
+    shared fluctuation function (:func:`tfhrv.estimators.presets.estimate_dfa`).
+
+    Gives the same fits as :func:`calibrated_fit` preset by preset. Returns the fits
+    (None where the series cannot support a preset) and the fluctuation function, which
+    also holds F(n) at ``dfa_scales`` when given (None if no DFA could be computed).
+    """
+    dfa_names = {v: p for v, p in presets.items() if p in DFA_PRESETS}
+    raw_dfa: dict = {}
+    fl = None
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            raw_dfa, fl = estimate_dfa(tuple(dfa_names.values()), nn_ms, order=order,
+                                       extra_scales=dfa_scales)
+    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+        pass
+    out: dict[str, ScalingFit | None] = {}
+    n = int(np.size(nn_ms))
+    for var, preset in presets.items():
+        if preset in DFA_PRESETS:
+            raw = raw_dfa.get(preset)
+            ok = raw is not None and np.isfinite(raw.exponent)
+            out[var] = calibrate(raw, estimator=preset, n=n) if ok else None
+        else:
+            out[var] = calibrated_fit(preset, nn_ms, beat_time_s=beat_time_s, order=order,
+                                      vanishing_moments=vanishing_moments)
+    return out, fl
+
+
 #: exponent name -> preset for the whole record (and the long tier).
 RECORD_PRESETS: dict[str, str] = {
     "alpha1": "alpha1",
@@ -376,9 +412,8 @@ def assess_record(
 
     q = cleaned.quality
     nn, tt = cleaned.nn_ms, cleaned.nn_time_s
-    fits = {name: calibrated_fit(preset, nn, beat_time_s=tt, order=order,
-                                 vanishing_moments=vanishing_moments)
-            for name, preset in RECORD_PRESETS.items()}
+    fits, _ = calibrated_fits(RECORD_PRESETS, nn, beat_time_s=tt, order=order,
+                              vanishing_moments=vanishing_moments)
     cats = np.asarray(long_categories)
     valid = cats != CATEGORIES.index("too-short")
     nonstat = (float(np.mean(cats[valid] != CATEGORIES.index("stationary")))

@@ -19,14 +19,14 @@ import xarray as xr
 from tfhrv.clean import CleanResult, Reason
 from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit, convert_exponent
-from tfhrv.estimators.dfa import dfa_fluctuation, local_alpha
+from tfhrv.estimators.dfa import Fluctuation, dfa_fluctuation, local_slopes
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS, band_powers, periodogram_psd
 from tfhrv.estimators.wavelet import logscale_diagram
 from tfhrv.policy import (
     ESTIMATORS,
     RECORD_PRESETS,
     assess_record,
-    calibrated_fit,
+    calibrated_fits,
     choose_estimator,
 )
 from tfhrv.resample import resample_even
@@ -84,11 +84,18 @@ _TIER_PRESETS = {
 }
 
 
-def _window_fits(nn: np.ndarray, t: np.ndarray, tier: TierSpec, opt: ScanOptions
-                 ) -> dict[str, ScalingFit | None]:
-    return {var: calibrated_fit(preset, nn, beat_time_s=t, order=opt.dfa_order,
-                                vanishing_moments=opt.vanishing_moments)
-            for var, preset in _TIER_PRESETS[tier.scale].items()}
+def _window_fits(nn: np.ndarray, t: np.ndarray, tier: TierSpec, opt: ScanOptions,
+                 dfa_scales: np.ndarray | None
+                 ) -> tuple[dict[str, ScalingFit | None], Fluctuation | None]:
+    return calibrated_fits(_TIER_PRESETS[tier.scale], nn, beat_time_s=t, order=opt.dfa_order,
+                           vanishing_moments=opt.vanishing_moments, dfa_scales=dfa_scales)
+
+
+def _at_scales(fl: Fluctuation, scales: np.ndarray) -> Fluctuation:
+    """The fluctuation function at a subset of its scales."""
+    idx = np.searchsorted(fl.scales, scales)
+    return Fluctuation(scales=fl.scales[idx], fluctuation=fl.fluctuation[idx], order=fl.order,
+                       n_obs=fl.n_obs, n_boxes=fl.n_boxes[idx])
 
 
 def _as_beta(fit: ScalingFit) -> tuple[float, tuple[float, float]]:
@@ -195,7 +202,8 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
                      "sd_drift", "drift_pvalue"):
             v[name][w] = getattr(st, name)
         v["stationarity"][w] = CATEGORIES.index(st.category)
-        fits = _window_fits(nn, tt, tier, opt)
+        usable = scales[scales <= nn.size // 4]
+        fits, fl = _window_fits(nn, tt, tier, opt, usable if usable.size >= 3 else None)
         for name, fit in fits.items():
             if fit is not None and np.isfinite(fit.exponent):
                 v[name][w] = fit.exponent
@@ -224,12 +232,10 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
                 if bp is not None:
                     v["band_power"][w] = np.where(band_ok, bp.power, np.nan)
                     v["total_power"][w] = bp.total_power
-        usable = scales[scales <= nn.size // 4]
-        if usable.size >= 3:
-            la = _try(local_alpha, nn, scales=usable, order=opt.dfa_order)
-            if la is not None:
-                v["fluctuation"][w, : usable.size] = la.fluctuation
-                v["local_alpha"][w, : usable.size] = la.slopes
+        if usable.size >= 3 and fl is not None:
+            la = local_slopes(_at_scales(fl, usable))
+            v["fluctuation"][w, : usable.size] = la.fluctuation
+            v["local_alpha"][w, : usable.size] = la.slopes
         diag = _try(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
         if diag is not None:
             m = np.minimum(diag.octaves.size, octaves.size)

@@ -9,9 +9,11 @@ from tfhrv.estimators.dfa import (
     alpha2,
     dfa,
     dfa_fluctuation,
+    dfa_ranges,
     local_alpha,
+    local_slopes,
 )
-from tfhrv.estimators.presets import PRESETS, estimate
+from tfhrv.estimators.presets import DFA_PRESETS, PRESETS, dfa_fit_range, estimate, estimate_dfa
 from tfhrv.estimators.spectral import (
     TASK_FORCE_BANDS,
     BandPowers,
@@ -26,6 +28,7 @@ from tfhrv.estimators.spectral import (
 from tfhrv.estimators.wavelet import LogscaleDiagram, logscale_diagram, wavelet_exponent
 
 __all__ = [
+    "DFA_PRESETS",
     "PRESETS",
     "TASK_FORCE_BANDS",
     "BandPowers",
@@ -42,9 +45,13 @@ __all__ = [
     "calibrate",
     "convert_exponent",
     "dfa",
+    "dfa_fit_range",
     "dfa_fluctuation",
+    "dfa_ranges",
     "estimate",
+    "estimate_dfa",
     "local_alpha",
+    "local_slopes",
     "logscale_diagram",
     "lomb_scargle_psd",
     "loglog_fit",

@@ -8,7 +8,7 @@ from types import MappingProxyType
 from typing import Any, Literal
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 from tfhrv._validation import readonly
 from tfhrv.errors import InsufficientDataError
@@ -152,7 +152,7 @@ def loglog_fit(
         se_c = float(np.sqrt(cov[2, 2]))
         curv = float(coef[2])
         if se_c > 0:
-            curv_p = float(2 * stats.t.sf(abs(curv / se_c), dof))
+            curv_p = float(2 * special.stdtr(dof, -abs(curv / se_c)))  # two-sided t
         else:
             curv_p = 0.0 if curv != 0 else 1.0
     return LogLogFit(float(slope), float(intercept), se, float(r2), curv, curv_p, int(n))

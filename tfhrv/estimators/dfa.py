@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 from tfhrv._validation import as_1d_float, check_choice, check_positive, check_range, readonly
 from tfhrv.errors import InsufficientDataError
@@ -26,7 +26,9 @@ __all__ = [
     "default_scales",
     "dfa",
     "dfa_fluctuation",
+    "dfa_ranges",
     "local_alpha",
+    "local_slopes",
 ]
 
 _ORDERS = (1, 2, 3)
@@ -36,6 +38,9 @@ SCALES_PER_DECADE = 16
 ALPHA1_RANGE = (4, 16)
 #: Intermediate range (beats) of Peng et al. 1995.
 ALPHA2_RANGE = (16, 64)
+#: Series up to this length stack both box tilings into one matrix per scale (measured
+#: faster on short windows; slower on long ones, where the copy dominates).
+_STACK_BELOW = 4096
 #: A fitted scale range of at most this many integers uses every integer scale.
 _MAX_INTEGER_SCALES = 100
 
@@ -165,7 +170,7 @@ def _box_rss(boxes: np.ndarray, basis: np.ndarray, work: np.ndarray) -> float:
     is almost exactly a degree-q polynomial), the residuals are formed explicitly.
     """
     m, n = boxes.shape
-    means = boxes @ np.full(n, 1.0 / n)
+    means = np.add.reduce(boxes, axis=1) * (1.0 / n)
     centred = np.subtract(boxes, means[:, None], out=work[: m * n].reshape(m, n))
     coef = centred @ basis
     # einsum rather than vdot: BLAS ddot threads stall on a busy machine.
@@ -181,16 +186,20 @@ def _fluctuation(profile: np.ndarray, scales: np.ndarray, order: int) -> tuple:
     n_obs = profile.size
     f2 = np.empty(scales.size)
     nbox = np.empty(scales.size, dtype=np.int64)
-    work = np.empty(n_obs)
+    work = np.empty(2 * n_obs)
     for i, n in enumerate(scales.tolist()):
         m = n_obs // n
         basis = _box_basis(n, order)
-        rss = _box_rss(profile[: m * n].reshape(m, n), basis, work)
         rest = n_obs - m * n
-        if rest:
+        if rest and n_obs <= _STACK_BELOW:  # both tilings in one matrix: fewer calls
+            boxes = np.concatenate((profile[: m * n].reshape(m, n),
+                                    profile[rest:].reshape(m, n)))
+            rss = _box_rss(boxes, basis, work)
+        elif rest:  # a copy costs more than a call on long series
+            rss = _box_rss(profile[: m * n].reshape(m, n), basis, work)
             rss += _box_rss(profile[rest:].reshape(m, n), basis, work)
         else:  # both tilings coincide
-            rss *= 2.0
+            rss = 2.0 * _box_rss(profile.reshape(m, n), basis, work)
         f2[i] = rss / (2 * m * n)
         nbox[i] = 2 * m
     return np.sqrt(f2), nbox
@@ -365,15 +374,20 @@ def dfa(
         curve = _validate_scales(scales, x.size, order)
         fit_s = curve[(curve >= lo) & (curve <= hi)]
     fl = dfa_fluctuation(x, scales=curve, order=order)
+    return _alpha_fit(fl, fit_s, (lo, hi))
+
+
+def _alpha_fit(fl: Fluctuation, fit_s: np.ndarray, asked: tuple[float, float]) -> ScalingFit:
+    """Least-squares alpha over the scales ``fit_s`` of a fluctuation function."""
     used = np.isin(fl.scales, fit_s)
     if used.sum() < 2:
         raise InsufficientDataError(
-            f"fewer than 2 DFA-{order} scales in fit_range={fit_range!r}"
+            f"fewer than 2 DFA-{fl.order} scales in fit_range={asked!r}"
         )
     lx, ly = np.log10(fl.scales.astype(np.float64)), np.log10(fl.fluctuation)
     fit = loglog_fit(lx[used], ly[used])
     dof = fit.n_points - 2
-    t = float(stats.t.ppf(0.975, dof)) if dof > 0 else float("nan")
+    t = float(special.stdtrit(dof, 0.975)) if dof > 0 else float("nan")
     fitted = fl.scales[used]
     return ScalingFit(
         exponent=fit.slope, kind="alpha", se=fit.slope_se,
@@ -381,10 +395,73 @@ def dfa(
         intercept=fit.intercept, fit_range=(float(fitted[0]), float(fitted[-1])),
         fit_units="beats", x=lx, y=ly, weights=np.ones_like(lx), used=used, n_obs=fl.n_obs,
         n_points=fit.n_points, r_squared=fit.r_squared, curvature=fit.curvature,
-        curvature_pvalue=fit.curvature_pvalue, method=f"DFA-{order}",
-        options={"order": order, "fit_range": (lo, hi),
+        curvature_pvalue=fit.curvature_pvalue, method=f"DFA-{fl.order}",
+        options={"order": fl.order, "fit_range": asked,
                  "scales": tuple(int(v) for v in fitted), "box_tiling": "forward+backward"},
     )
+
+
+def dfa_ranges(
+    x: np.ndarray, /, *, fit_ranges: dict[str, tuple[float, float]], order: int = 1,
+    extra_scales: np.ndarray | None = None,
+) -> tuple[dict[str, ScalingFit], Fluctuation]:
+    """Several DFA exponents from one fluctuation function.
+
+    Each range is fitted over the same scales as :func:`dfa` with its default ``scales``
+    would use, so every exponent equals ``dfa(x, fit_range=r, order=order).exponent``;
+    F(n) is computed once over the union of those scales and ``extra_scales`` (for
+    example the grid of :func:`local_slopes`), which saves the repeated work when a scan
+    asks for alpha1, alpha2, alpha_long and local slopes of the same window.
+
+    Parameters
+    ----------
+    x : array_like
+        Beat-indexed series.
+    fit_ranges : dict of name -> (float, float)
+        Box-size ranges (beats) to fit. A range whose upper end exceeds N/4, or that
+        holds fewer than 2 scales, is left out of the result.
+    order : {1, 2, 3}, default 1
+        DFA order q.
+    extra_scales : array_like of int, optional
+        Further scales at which to evaluate F (not fitted).
+
+    Returns
+    -------
+    fits : dict of name -> ScalingFit
+        As :func:`dfa` returns, except that ``x``/``y`` hold the whole shared curve.
+    fluctuation : Fluctuation
+        F(n) at the union of the scales.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(3)
+    >>> x = rng.standard_normal(4000)
+    >>> fits, fl = dfa_ranges(x, fit_ranges={"a1": (4, 16), "a2": (16, 64)})
+    >>> bool(fits["a2"].exponent == dfa(x, fit_range=(16, 64)).exponent)
+    True
+    """
+    order = _check_order(order)
+    x = as_1d_float(x, "x", min_len=4 * (_min_scale(order) + 1))
+    wanted = {}
+    for name, rng_ in fit_ranges.items():
+        lo, hi = check_range(rng_, f"fit_ranges[{name!r}]")
+        if x.size >= 4 * hi:
+            wanted[name] = ((lo, hi), _fit_scales(lo, hi, order))
+    union = np.zeros(0, dtype=np.int64)
+    for _, fit_s in wanted.values():
+        union = np.union1d(union, fit_s)
+    if extra_scales is not None:
+        union = np.union1d(union, _validate_scales(extra_scales, x.size, order))
+    if union.size == 0:
+        raise InsufficientDataError(f"no DFA range fits a series of {x.size} values")
+    fl = dfa_fluctuation(x, scales=union, order=order)
+    fits = {}
+    for name, (asked, fit_s) in wanted.items():
+        try:
+            fits[name] = _alpha_fit(fl, fit_s, asked)
+        except InsufficientDataError:
+            continue
+    return fits, fl
 
 
 def alpha1(x: np.ndarray, /, *, order: int = 1) -> ScalingFit:
@@ -459,6 +536,19 @@ def local_alpha(
     True
     """
     fl = dfa_fluctuation(x, scales=scales, order=order)
+    return local_slopes(fl, half_width=half_width)
+
+
+def local_slopes(fl: Fluctuation, /, *, half_width: float = 0.15) -> LocalSlopes:
+    """Local slopes of a computed fluctuation function (see :func:`local_alpha`).
+
+    Examples
+    --------
+    >>> fl = dfa_fluctuation(np.random.default_rng(7).standard_normal(4096),
+    ...                      scales=[4, 8, 16, 32, 64])
+    >>> local_slopes(fl).n_points.tolist()
+    [2, 3, 3, 3, 2]
+    """
     hw = check_positive(half_width, "half_width")
     lx, ly = np.log10(fl.scales.astype(np.float64)), np.log10(fl.fluctuation)
     idx = np.arange(lx.size)

@@ -28,11 +28,11 @@ import numpy as np
 from tfhrv._validation import as_1d_float
 from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit
-from tfhrv.estimators.dfa import dfa
+from tfhrv.estimators.dfa import Fluctuation, dfa, dfa_ranges
 from tfhrv.estimators.spectral import beta_from_nn, periodogram_psd, spectral_exponent
 from tfhrv.estimators.wavelet import logscale_diagram, wavelet_exponent
 
-__all__ = ["PRESETS", "estimate", "long_band"]
+__all__ = ["DFA_PRESETS", "PRESETS", "dfa_fit_range", "estimate", "estimate_dfa", "long_band"]
 
 PRESETS: tuple[str, ...] = (
     "alpha1",
@@ -43,6 +43,9 @@ PRESETS: tuple[str, ...] = (
     "beta_spectral_long",
     "beta_wavelet_long",
 )
+
+#: The presets that are DFA fits (they can share one fluctuation function).
+DFA_PRESETS: tuple[str, ...] = ("alpha1", "alpha2", "alpha_long")
 
 #: Lowest frequency of the classical long-term band (Hz) and its upper edge.
 LONG_BAND_HZ = (1e-4, 1e-2)
@@ -114,16 +117,8 @@ def estimate(
     if name not in PRESETS:
         raise ValueError(f"name must be one of {PRESETS!r}, got {name!r}")
     x = as_1d_float(nn_ms, "nn_ms", min_len=16)
-    if name == "alpha1":
-        return dfa(x, fit_range=(4, 16), order=order)
-    if name == "alpha2":
-        return dfa(x, fit_range=(16, 64), order=order)
-    if name == "alpha_long":
-        hi = min(x.size // 4, 4096)
-        if hi < 256:
-            raise InsufficientDataError(
-                f"alpha_long needs at least 1024 beats (scales 64..256+), got {x.size}")
-        return dfa(x, fit_range=(64, hi), order=order)
+    if name in DFA_PRESETS:
+        return dfa(x, fit_range=dfa_fit_range(name, x.size), order=order)
     if name == "beta_spectral_short":
         spec = periodogram_psd(x, fs_hz=1.0)
         return spectral_exponent(spec.frequency_hz, spec.psd, band=(1 / 16, 1 / 4),
@@ -143,3 +138,54 @@ def estimate(
             f"beta_wavelet_long needs octaves 7..8 or coarser with >= 16 coefficients; a "
             f"series of {x.size} beats is too short")
     return wavelet_exponent(x, vanishing_moments=vanishing_moments, octaves=(7, int(ok.max())))
+
+
+def dfa_fit_range(name: str, n_obs: int, /) -> tuple[int, int]:
+    """Box-size range (beats) of a DFA preset for a series of ``n_obs`` beats.
+
+    Examples
+    --------
+    >>> dfa_fit_range("alpha_long", 86000)
+    (64, 4096)
+    """
+    if name == "alpha1":
+        return (4, 16)
+    if name == "alpha2":
+        return (16, 64)
+    if name == "alpha_long":
+        hi = min(int(n_obs) // 4, 4096)
+        if hi < 256:
+            raise InsufficientDataError(
+                f"alpha_long needs at least 1024 beats (scales 64..256+), got {n_obs}")
+        return (64, hi)
+    raise ValueError(f"name must be one of {DFA_PRESETS!r}, got {name!r}")
+
+
+def estimate_dfa(
+    names, nn_ms: np.ndarray, /, *, order: int = 1, extra_scales: np.ndarray | None = None,
+) -> tuple[dict[str, ScalingFit], Fluctuation | None]:
+    """Several DFA presets from one fluctuation function (see
+    :func:`tfhrv.estimators.dfa.dfa_ranges`).
+
+    Each exponent equals ``estimate(name, nn_ms, order=order).exponent``. Presets the
+    series cannot support are left out of the result; the fluctuation function is None
+    when none can be computed.
+
+    Examples
+    --------
+    >>> from tfhrv.synth import fgn
+    >>> x = 800 + 40 * fgn(1000, 0.7, rng=1)
+    >>> fits, fl = estimate_dfa(("alpha1", "alpha2", "alpha_long"), x)
+    >>> sorted(fits), bool(fits["alpha1"].exponent == estimate("alpha1", x).exponent)
+    (['alpha1', 'alpha2'], True)
+    """
+    x = as_1d_float(nn_ms, "nn_ms", min_len=16)
+    ranges = {}
+    for name in names:
+        try:
+            ranges[name] = dfa_fit_range(name, x.size)
+        except InsufficientDataError:
+            continue
+    if not ranges and extra_scales is None:
+        return {}, None
+    return dfa_ranges(x, fit_ranges=ranges, order=order, extra_scales=extra_scales)

@@ -14,7 +14,7 @@ from typing import Any, Literal
 
 import numpy as np
 from scipy import fft as sp_fft
-from scipy import signal, stats
+from scipy import signal, special
 
 from tfhrv._validation import as_1d_float, check_choice, check_positive, check_range, readonly
 from tfhrv.errors import InsufficientDataError
@@ -605,7 +605,7 @@ def spectral_exponent(
         )
     fit = loglog_fit(x[used], y[used])
     beta = -fit.slope
-    q = float(stats.t.ppf(0.975, fit.n_points - 2)) if fit.n_points > 2 else float("nan")
+    q = float(special.stdtrit(fit.n_points - 2, 0.975)) if fit.n_points > 2 else float("nan")
     in_band = (k >= 0) & (k < nb)
     fr = (float(f[in_band].min()), float(f[in_band].max()))
     opts = {

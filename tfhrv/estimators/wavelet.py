@@ -12,7 +12,7 @@ from typing import Literal
 
 import numpy as np
 import pywt
-from scipy import special, stats
+from scipy import special
 
 from tfhrv._validation import as_1d_float, check_choice, readonly
 from tfhrv.errors import InsufficientDataError
@@ -341,7 +341,7 @@ def wavelet_exponent(
     weights = 1.0 / d.variance
     fit = loglog_fit(j[used].astype(np.float64), d.y[used], weights=weights[used],
                      known_variance=True)
-    z = float(stats.norm.ppf(0.975))
+    z = float(special.ndtri(0.975))
     return ScalingFit(
         exponent=fit.slope, kind="beta", se=fit.slope_se,
         ci=(fit.slope - z * fit.slope_se, fit.slope + z * fit.slope_se),
