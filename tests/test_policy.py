@@ -9,7 +9,8 @@ from tfhrv.stationarity import CATEGORIES
 
 GOOD = dict(duration_s=86400.0, band_hz=(1e-4, 1e-2), coverage=0.98, longest_gap_s=30.0,
             ectopic_share=0.002, nonstationary_share=0.1, r_squared=0.97,
-            curvature_pvalue=0.4, beta_spectral=1.05, beta_wavelet=1.0)
+            curvature_pvalue=0.4, lack_of_fit_pvalue=0.3, excess_scatter=0.0,
+            beta_spectral=1.05, beta_wavelet=1.0)
 
 
 def test_table_covers_every_category_and_never_picks_fft_for_nonstationary():
@@ -43,7 +44,7 @@ def test_clean_record_is_fit():
         ({"ectopic_share": 0.2}, "ectopy"),
         ({"nonstationary_share": 0.8}, "stationarity"),
         ({"duration_s": 4 * 3600.0}, "duration"),
-        ({"r_squared": 0.5}, "linearity"),
+        ({"lack_of_fit_pvalue": 1e-5, "excess_scatter": 0.2}, "linearity"),
         ({"beta_spectral": 1.6, "beta_wavelet": 1.0}, "agreement"),
     ],
 )
@@ -52,6 +53,15 @@ def test_each_failed_check_makes_unfit_with_its_reason(change, fragment):
     assert v.verdict == "unfit"
     assert any(r.startswith(fragment) for r in v.reasons), v.reasons
     assert v.recommended in ("wavelet", "dfa")
+
+
+def test_linearity_is_judged_by_lack_of_fit_not_r_squared():
+    # a low R^2 alone is what periodogram scatter gives a pure power law (spectral_exponent
+    # Notes); a significant but small departure is a caution, a large one unfit
+    assert fitness_verdict(**{**GOOD, "r_squared": 0.8}).verdict == "fit"
+    small = fitness_verdict(**{**GOOD, "lack_of_fit_pvalue": 1e-4, "excess_scatter": 0.05})
+    assert small.verdict == "fit-with-cautions"
+    assert any(c.startswith("linearity") for c in small.cautions)
 
 
 def test_cautions_and_missing_values():

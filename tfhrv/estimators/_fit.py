@@ -196,6 +196,11 @@ class ScalingFit:
         The uncorrected regression estimate.
     calibrated : bool
         Whether ``exponent``, ``se`` and ``ci`` come from the calibration tables.
+    lack_of_fit_pvalue, excess_scatter : float
+        Spectral fits on raw periodogram ordinates only (NaN otherwise): the p-value of the
+        chi-square lack-of-fit test of the binned points against one line, given the known
+        scatter of log periodogram ordinates, and the RMS departure from the line beyond
+        that scatter (log10 units); see :func:`tfhrv.estimators.spectral.spectral_exponent`.
     """
 
     exponent: float
@@ -218,6 +223,8 @@ class ScalingFit:
     options: Mapping[str, Any] = field(default_factory=dict)
     raw_exponent: float = float("nan")
     calibrated: bool = False
+    lack_of_fit_pvalue: float = float("nan")
+    excess_scatter: float = float("nan")
 
     def __post_init__(self) -> None:
         for name in ("x", "y", "weights", "used"):
