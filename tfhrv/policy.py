@@ -52,19 +52,21 @@ class _Rule:
 #: 95 % interval (in beta units) is primary; ties go to the earlier one.  Sources:
 #: Eke et al. 2002 (classify noise vs motion before choosing a method); Abry & Veitch 1998
 #: (wavelets with N vanishing moments ignore polynomial trends of degree < N); Hu et al. 2001
-#: and Kantelhardt et al. 2001 (DFA of order q removes polynomial trends of order q - 1 in the
-#: profile and copes with non-stationary increments); Kwiatkowski et al. 1992 and Said &
-#: Dickey 1984 for the ADF/KPSS reading (see tfhrv.stationarity).
+#: and Kantelhardt et al. 2001 (DFA of order q removes polynomial trends of degree q in the
+#: profile, i.e. of degree q - 1 in the NN series, and copes with non-stationary
+#: increments); Kwiatkowski et al. 1992 and Said & Dickey 1984 for the ADF/KPSS reading
+#: (see tfhrv.stationarity).
 DECISION_TABLE: dict[str, _Rule] = {
     "stationary": _Rule(
         ("spectral", "wavelet", "dfa"),
-        "stationary (no drift beyond surrogates, level stationarity kept): the periodogram "
+        "stationary (no drift beyond surrogates; KPSS level kept, or rejected with ADF "
+        "rejecting too, i.e. long memory): the periodogram "
         "slope's assumptions hold, as do the others'; the most precise is primary",
     ),
     "trend": _Rule(
         ("wavelet",),
         "trend-stationary: a trend leaks into the low-frequency periodogram and bends DFA-1; "
-        "wavelets with 3 vanishing moments ignore polynomial trends of degree < 3",
+        "wavelets with N vanishing moments (default 3) ignore polynomial trends of degree < N",
     ),
     "unit-root": _Rule(
         ("dfa", "wavelet"),
@@ -160,7 +162,7 @@ class FitnessThresholds:
       analysable data in a 24-h record, from memory).
     - ``max_gap_s`` = 1800 s unfit, 600 s caution (common practice: a gap longer than
       one period of the highest fitted frequency, 100 s, distorts the band; a 30-min gap
-      removes more than a fifth of a 2.8-h period).
+      removes almost a fifth of a 2.8-h period).
     - ``max_ectopic`` = 0.10 unfit, 0.01 caution (Peltola et al. 2004 found that even
       0.25 % unedited premature beats change alpha1; edited records tolerate more;
       common practice).

@@ -114,8 +114,11 @@ _REFERENCES = (
     "doi:10.1016/S0378-4371(01)00144-3",
     "Abry P, Veitch D. Wavelet analysis of long-range-dependent traffic. IEEE Trans Inf Theory "
     "1998;44:2–15. doi:10.1109/18.650984",
-    "Welch PD. The use of fast Fourier transform for the estimation of power spectra. IEEE "
-    "Trans Audio Electroacoust 1967;15:70–73. doi:10.1109/TAU.1967.1161901",
+    "Kobayashi M, Musha T. 1/f fluctuation of heartbeat period. IEEE Trans Biomed Eng "
+    "1982;29:456–457 (from memory).",
+    "Geweke J, Porter-Hudak S. The estimation and application of long memory time series "
+    "models. J Time Ser Anal 1983;4:221–238. doi:10.1111/j.1467-9892.1983.tb00371.x",
+    "Timmer J, König M. On generating power law noise. Astron Astrophys 1995;300:707–710.",
     "Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95–101. "
     "doi:10.1093/biomet/74.1.95",
     "Said SE, Dickey DA. Testing for unit roots in autoregressive-moving average models of "
@@ -153,13 +156,16 @@ _METHODS = (
     "Windows: 5-min windows (short tier) and 4-h windows with a 1-h hop (long tier) on the "
     "clock; windows with too little coverage are left empty.",
     "Spectral exponent β: log-binned periodogram of the evenly resampled NN series and a "
-    "straight-line fit of log PSD on log frequency (Welch 1967; Task Force 1996 bands).",
+    "straight-line fit of log PSD on log frequency (Kobayashi & Musha 1982; Task Force 1996 "
+    "bands); its linearity is tested against the scatter of log periodogram ordinates "
+    "(Geweke & Porter-Hudak 1983).",
     "Wavelet β: log-scale diagram with a weighted fit over octaves; wavelets with 3 "
     "vanishing moments ignore polynomial trends of degree < 3 (Abry & Veitch 1998).",
     "DFA: fluctuation of the integrated, box-wise detrended series; α1 over 4–16 beats, α2 "
     "over 16–64 beats, long-range α above (Peng et al. 1995; Kantelhardt et al. 2001).",
     "Calibrated intervals: bias and 95 % quantiles from simulations of fractional Gaussian "
-    "noise and motion at the estimated exponent and length (Davies & Harte 1987).",
+    "noise (alpha < 1; Davies & Harte 1987) and 1/f^β noise (alpha > 1; Timmer & König "
+    "1995) at the estimated exponent and length.",
     "Stationarity: ADF (Said & Dickey 1984), KPSS (Kwiatkowski et al. 1992) and mean/SD "
     "drift against phase-randomised surrogates (Theiler et al. 1992; Schreiber & Schmitz "
     "1996); the category chooses the primary estimator (decision table).",

@@ -291,7 +291,7 @@ def cosinor(
     ----------
     Nelson W, Tong YL, Lee JK, Halberg F. Methods for cosinor-rhythmometry.
     Chronobiologia 1979;6:305-323.
-    Bingham C, Arbogast B, Guillaume Cornelissen G, Lee JK, Halberg F. Inferential
+    Bingham C, Arbogast B, Cornelissen G, Lee JK, Halberg F. Inferential
     statistical methods for estimating and comparing cosinor parameters.
     Chronobiologia 1982;9:397-439.
     Cornelissen G. Cosinor-based rhythmometry. Theor Biol Med Model 2014;11:16.

@@ -2,7 +2,8 @@
 
 Regression standard errors on log-log points are too optimistic, because the points are
 correlated.  For every preset (:mod:`tfhrv.estimators.presets`) the script
-``scripts/make_calibration.py`` simulates exact fGn/fBm (Davies-Harte) on a grid of true
+``scripts/make_calibration.py`` simulates exact fGn (Davies-Harte) for alpha < 1 and
+Timmer-Koenig 1/f^beta noise (beta = 2 alpha - 1) for alpha > 1 on a grid of true
 exponents and series lengths, runs the preset, and stores the mean, the SD and the 2.5 %
 and 97.5 % quantiles of the estimates.  At run time, for a series of length n the curves
 are interpolated in log n and inverted:
