@@ -159,7 +159,7 @@ def test_study_table_carries_tree_values(sequential, study_dir):
 
 
 def test_short_exponents_zarr_matches_windows(sequential, study_dir):
-    z = xr.open_zarr(study_dir / "seq" / "short_exponents.zarr", consolidated=False).load()
+    z = xr.open_zarr(study_dir / "seq" / "short_exponents.zarr").load()
     assert z["alpha1"].dims == ("record", "time_of_day")
     assert z.sizes == {"record": 3, "time_of_day": 288}
     assert list(z["record"].values) == ["s0", "s1", "s2"]

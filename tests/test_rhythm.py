@@ -6,9 +6,16 @@ import datetime as dt
 
 import numpy as np
 import pytest
+import xarray as xr
 
 from tfhrv.clean import clean
-from tfhrv.rhythm import RhythmOptions, format_rhythm, read_sleep_log, rhythm_table
+from tfhrv.rhythm import (
+    RhythmOptions,
+    format_rhythm,
+    read_sleep_log,
+    rhythm_dataset,
+    rhythm_table,
+)
 from tfhrv.synth import simulate_recording
 from tfhrv.timegrid import scan
 
@@ -82,3 +89,24 @@ def test_sleep_log_errors_name_file_and_line(tmp_path):
         read_sleep_log(bad, "r1")
     with pytest.raises(RecordFormatError, match="no rest period"):
         read_sleep_log(bad, "r2")
+
+
+def test_rhythm_group_keeps_the_periods_figures_shade(day_worker):
+    # a sleep log 01:00-05:00 differs from the default clock night 00:00-06:00: the
+    # /rhythm group keeps the mask the contrasts used and the figures shade that one
+    from tfhrv._plotkit import _rest
+
+    _, tree = day_worker
+    periods = [(dt.datetime(2026, 3, 3, 1), dt.datetime(2026, 3, 3, 5))]
+    opt = RhythmOptions(n_boot=199)
+    table = rhythm_table(tree, options=opt, sleep_log=periods)
+    t = tree.copy()
+    t["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt, tree=t, sleep_log=periods))
+    clock = t["/short"]["clock_hour"].values
+    night = t["/rhythm"]["short_night"].values.astype(bool)
+    assert night.any() and np.all((clock[night] >= 1.0) & (clock[night] < 5.0 + 1 / 12))
+    shaded, _, _, label = _rest(t)
+    np.testing.assert_array_equal(shaded, night)
+    assert label == "rest period (sleep log)"
+    # without the group the figures fall back to the default clock night
+    assert _rest(tree)[3].startswith("night 00:00")

@@ -1,7 +1,8 @@
 """tfhrv: time-resolved scaling analysis of long heart inter-beat interval recordings.
 
 For research use only; not for diagnosis.  ``import tfhrv`` is cheap: the public names
-below are imported on first use.
+below are imported on first use.  The cleaning function is ``tfhrv.clean.clean`` (not
+re-exported: the name ``tfhrv.clean`` is its module).
 """
 
 from __future__ import annotations
@@ -21,7 +22,6 @@ _LAZY = {
     "Recording": "tfhrv.recording",
     "ScanOptions": "tfhrv.timegrid",
     "TfhrvWarning": "tfhrv.errors",
-    "clean": "tfhrv.clean",
     "inspect_record": "tfhrv.inspection",
     "read_recording": "tfhrv.io.readers",
     "rhythm_table": "tfhrv.rhythm",

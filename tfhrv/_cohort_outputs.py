@@ -38,8 +38,11 @@ __all__ = [
 KEY_VARIABLES = ("sdnn_ms", "rmssd_ms", "nn_mean_ms", "alpha1", "alpha2", "beta_spectral",
                  "alpha_long", "alpha1_night_minus_day")
 #: Column suffixes left out of the group comparison: interval bounds and p-values are not
-#: measurements, and acrophases are circular (a linear rank test does not apply).
-NOT_COMPARED = ("_ci_lower", "_ci_upper", "_cosinor_p", "_acrophase_h")
+#: measurements, acrophases are circular (a linear rank test does not apply), and the slopes
+#: before calibration (``*_raw``) order the records almost as the calibrated values do (the
+#: calibration is monotone at a given length), so a rank test of
+#: them repeats the same comparison and would only inflate the multiple-testing family.
+NOT_COMPARED = ("_ci_lower", "_ci_upper", "_cosinor_p", "_acrophase_h", "_raw")
 BIN_MINUTES = 5
 
 # ------------------------------------------------------------------------ statistics
@@ -322,10 +325,14 @@ def short_exponents_dataset(records: Sequence[str], groups: Sequence[str],
 
 
 def write_zarr(ds: xr.Dataset, dest: Path) -> Path:
-    """Write ``ds`` to the Zarr store ``dest`` through a temporary folder renamed into place."""
+    """Write ``ds`` to the Zarr store ``dest`` through a temporary folder renamed into place.
+
+    Zarr format 2 with consolidated metadata: plain ``xarray.open_zarr(dest)`` opens it
+    without warnings, and format 2 is read by every Zarr implementation.
+    """
     tmp = Path(tempfile.mkdtemp(prefix=f".{dest.name}.", suffix=".part", dir=dest.parent))
     try:
-        ds.to_zarr(tmp, mode="w", consolidated=False)
+        ds.to_zarr(tmp, mode="w", consolidated=True, zarr_format=2)
         if dest.exists():
             shutil.rmtree(dest)
         os.replace(tmp, dest)

@@ -220,6 +220,12 @@ def _rest(tree: xr.DataTree):
         night, day, day_index, source = _periods(tree, "short", opt, None)
     except (ValueError, KeyError):
         return None
+    kept = tree["/rhythm"].to_dataset() if "rhythm" in tree.children else None
+    if kept is not None and "short_night" in kept and kept["short_night"].size == night.size:
+        # the periods tfhrv rhythm used (a sleep log or non-default clock windows)
+        night = kept["short_night"].values.astype(bool)
+        day = kept["short_day"].values.astype(bool)
+        return night, day, day_index, str(kept["short_night"].attrs["period_label"])
     if source == "clock":
         label = f"night {_hhmm(opt.night_hours[0])}–{_hhmm(opt.night_hours[1])} (clock)"
     elif source == "inferred rest period":

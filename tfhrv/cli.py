@@ -156,7 +156,7 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
     table = rhythm_table(tree, options=opt, sleep_log=log)
     csv_path = Path(args.csv) if args.csv else path.with_suffix(".rhythm.csv")
     atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
-    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt))
+    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt, tree=tree, sleep_log=log))
     tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv rhythm"
     write_tree(tree, path)
     print(format_rhythm(table))
@@ -175,7 +175,7 @@ def _pipeline(rec, options, rhythm_options=None):
     tree = scan(clean(rec), options=options)
     ropt = rhythm_options or RhythmOptions()
     table = rhythm_table(tree, options=ropt)
-    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt))
+    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt, tree=tree))
     return tree, table
 
 

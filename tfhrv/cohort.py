@@ -340,7 +340,8 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
             stage = "rhythm"
             log = read_sleep_log(entry.sleep_log, entry.record) if entry.sleep_log else None
             table = rhythm_table(tree, options=options.rhythm, sleep_log=log)
-            tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, options.rhythm))
+            tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, options.rhythm, tree=tree,
+                                                         sleep_log=log))
             tree.attrs["parameter_hash"] = param_hash
             tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv rhythm\ntfhrv cohort"
             tree.attrs["warnings"] = " | ".join(sorted(
@@ -400,6 +401,7 @@ def study_row(tree: xr.DataTree, /) -> dict:
         row[name] = _scalar(rec, name)
         ci = rec[name + "_ci"].values if name + "_ci" in rec else (np.nan, np.nan)
         row[name + "_ci_lower"], row[name + "_ci_upper"] = float(ci[0]), float(ci[1])
+        row[name + "_raw"] = _scalar(rec, name + "_raw")
     table = (tree["/rhythm"].to_dataset().to_dataframe() if "rhythm" in tree.children
              else pd.DataFrame(columns=["tier", "variable", "day"]))
     pooled = table[table["day"].astype(str) == "all"]

@@ -270,13 +270,33 @@ def _cosinor_columns(t: np.ndarray, y: np.ndarray, ref: str) -> dict:
     return out
 
 
-def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions) -> xr.Dataset:
-    """The table as the ``/rhythm`` group (dimension ``row``) with units and long names."""
+def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
+                   tree: xr.DataTree | None = None,
+                   sleep_log: list | None = None) -> xr.Dataset:
+    """The table as the ``/rhythm`` group (dimension ``row``) with units and long names.
+
+    Given the scan ``tree`` (and the ``sleep_log`` the table was made with), the group also
+    keeps the night/rest and day masks of the short windows (``short_night``,
+    ``short_day`` on dimension ``short_window``), so that figures shade the periods the
+    contrasts actually used.
+    """
     ds = xr.Dataset.from_dataframe(table.reset_index(drop=True).rename_axis("row"))
+    if tree is not None:
+        night, day, _, source = _periods(tree, "short", options, sleep_log)
+        label = {"clock": f"night {_clock(options.night_hours[0])}–"
+                          f"{_clock(options.night_hours[1])} (clock)",
+                 "inferred rest period": "rest period (inferred: longest mean NN)"}.get(
+                     source, f"rest period ({source})")
+        for name, mask, what in (("short_night", night, "night/rest"), ("short_day", day, "day")):
+            ds[name] = ("short_window", mask.astype(np.int8), {
+                "long_name": f"short window lies in the {what} period used by the contrasts",
+                "flag_values": np.array([0, 1], np.int8), "flag_meanings": "no yes",
+                "period_source": source, "period_label": label})
     for name in ds.data_vars:
         if ds[name].dtype == object:
             ds[name] = ds[name].astype(str)
-        ds[name].attrs["long_name"] = name.replace("_", " ")
+        if name not in ("short_night", "short_day"):
+            ds[name].attrs["long_name"] = name.replace("_", " ")
     for name in ("acrophase_h", "acrophase_low", "acrophase_high", "acrophase_h2",
                  "acrophase_low2", "acrophase_high2"):
         if name in ds:

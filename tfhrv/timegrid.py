@@ -133,6 +133,7 @@ class _TierArrays:
             v[name] = np.full(n, nan)
             v[name + "_se"] = np.full(n, nan)
             v[name + "_ci"] = np.full((n, 2), nan)
+            v[name + "_raw"] = np.full(n, nan)
         v["exponent_ci"] = np.full((n, 2), nan)
         v["band_power"] = np.full((n, len(BANDS)), nan)
         v["psd"] = np.full((n, nf), nan)
@@ -209,6 +210,7 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
                 v[name][w] = fit.exponent
                 v[name + "_se"][w] = fit.se
                 v[name + "_ci"][w] = fit.ci
+                v[name + "_raw"][w] = fit.raw_exponent
         available = {}
         for est, src in _PRIMARY_SOURCE[tier.scale].items():
             if np.isfinite(v[src][w]):
@@ -304,9 +306,12 @@ def _tier_dataset(arr: _TierArrays, centres: np.ndarray, start, tier: TierSpec) 
             dims = {"band_power": ("time", "band"), "psd": ("time", "frequency"),
                     "fluctuation": ("time", "scale"), "local_alpha": ("time", "scale"),
                     "wavelet_energy": ("time", "octave")}[name]
-        base = name.removesuffix("_ci").removesuffix("_se")
+        base = name.removesuffix("_ci").removesuffix("_se").removesuffix("_raw")
         units, long_name = _ATTRS.get(base, ("1", base))
-        if name.endswith("_se"):
+        if name.endswith("_raw"):
+            long_name = (long_name + " before calibration: the slope of the fitted line, the "
+                         "conventional value that published ranges refer to")
+        elif name.endswith("_se"):
             long_name = "standard error (calibrated) of " + long_name
         elif name.endswith("_ci"):
             long_name = "95 % calibrated confidence interval of " + long_name
