@@ -314,3 +314,21 @@ def test_result_fields():
     assert fit.converted().process_class == "fGn"
     with pytest.raises(ValueError):
         fit.x[0] = 1.0  # read-only
+
+
+@pytest.mark.parametrize("trend_ms", [0.0, 300.0])
+def test_short_series_prefix_sum_path_equals_per_scale_kernel(trend_ms, monkeypatch):
+    # DFA-1 on series <= 4096 beats uses prefix sums for all scales at once; it must give
+    # the same F(n) as the per-scale Gram-polynomial kernel (itself checked against a
+    # per-box least-squares fit above), also with a strong trend (profile far from 0)
+    import importlib
+
+    mod = importlib.import_module("tfhrv.estimators.dfa")
+    for seed, n in ((1, 300), (2, 1001), (3, 4096)):
+        x = 800.0 + 50.0 * fgn(n, 0.8, rng=seed) + np.linspace(0.0, trend_ms, n)
+        scales = np.arange(4, n // 4 + 1)
+        fast = dfa_fluctuation(x, scales=scales).fluctuation
+        monkeypatch.setattr(mod, "_STACK_BELOW", 0)
+        ref = dfa_fluctuation(x, scales=scales).fluctuation
+        monkeypatch.undo()
+        np.testing.assert_allclose(fast, ref, rtol=1e-9)
