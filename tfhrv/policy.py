@@ -59,8 +59,8 @@ class _Rule:
 DECISION_TABLE: dict[str, _Rule] = {
     "stationary": _Rule(
         ("spectral", "wavelet", "dfa"),
-        "stationary (no drift beyond surrogates; KPSS level kept, or rejected with ADF "
-        "rejecting too, i.e. long memory): the periodogram "
+        "stationary (no drift or slope beyond surrogates; KPSS level kept, or its "
+        "rejection explained by long memory): the periodogram "
         "slope's assumptions hold, as do the others'; the most precise is primary",
     ),
     "trend": _Rule(
