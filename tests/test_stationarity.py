@@ -347,3 +347,15 @@ def test_validation_errors():
         drift_test(x[:10], n_subwindows=6)
     with pytest.raises(InsufficientDataError):
         adf_test(x[:4])
+
+
+def test_adf_pvalue_equals_statsmodels_mackinnonp():
+    # Source: statsmodels.tsa.adfvalues.mackinnonp (MacKinnon 1994 response surface);
+    # adf_test evaluates the same tables without the per-call overhead
+    from statsmodels.tsa.adfvalues import mackinnonp
+
+    from tfhrv.stationarity import _mackinnon_p_constant
+
+    for stat in np.linspace(-25.0, 3.0, 561):
+        assert _mackinnon_p_constant(stat) == pytest.approx(
+            mackinnonp(stat, regression="c", N=1), abs=1e-14)
