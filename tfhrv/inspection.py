@@ -156,5 +156,13 @@ def format_inspection(ins: Inspection, /) -> str:
     lines.append(" " * 14 + "   ".join([_exp(f["alpha1"], "alpha1"),
                                              _exp(f["alpha2"], "alpha2"),
                                              _exp(f["alpha_long"], "alpha long")]))
-    lines.append(" " * 14 + "(calibrated 95 % intervals; research use only, not a diagnosis)")
+    lines.append(" " * 14 + "(bias-corrected values with calibrated 95 % intervals)")
+    slopes = [f"{label} {f[key].raw_exponent:.2f}" for key, label in (
+        ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
+        ("alpha2", "alpha2"), ("alpha_long", "alpha long")) if f[key] is not None]
+    if slopes:
+        lines.append("slopes        " + "   ".join(slopes))
+        lines.append(" " * 14 + "(fitted slopes before calibration: the values published "
+                     "ranges refer to)")
+    lines.append(" " * 14 + "research use only, not a diagnosis")
     return "\n".join(lines)
