@@ -332,3 +332,21 @@ def test_short_series_prefix_sum_path_equals_per_scale_kernel(trend_ms, monkeypa
         ref = dfa_fluctuation(x, scales=scales).fluctuation
         monkeypatch.undo()
         np.testing.assert_allclose(fast, ref, rtol=1e-9)
+
+
+def test_loglog_curvature_test_equals_statsmodels_wls():
+    # Source: statsmodels WLS of y on [1, x, x^2] (x centred): the quadratic coefficient and
+    # its two-sided t-test p-value are what loglog_fit reports as curvature (Frisch-Waugh)
+    import statsmodels.api as sm
+
+    rng = np.random.default_rng(3)
+    for i in range(20):
+        n = int(rng.integers(5, 40))
+        x = np.sort(rng.uniform(0.0, 3.0, n))
+        y = 1.0 + 0.8 * x + 0.05 * (i % 2) * x * x + rng.normal(0.0, 0.1, n)
+        w = rng.uniform(0.5, 2.0, n)
+        fit = loglog_fit(x, y, weights=w)
+        xc = x - np.average(x, weights=w)
+        ref = sm.WLS(y, np.column_stack([np.ones(n), xc, xc * xc]), weights=w).fit()
+        assert_allclose(fit.curvature, ref.params[2], rtol=1e-9, atol=1e-12)
+        assert_allclose(fit.curvature_pvalue, ref.pvalues[2], rtol=1e-7, atol=1e-12)

@@ -142,19 +142,23 @@ def loglog_fit(
         se = float("nan")
     curv, curv_p = float("nan"), float("nan")
     if n >= 4:
+        # quadratic term by Frisch-Waugh: its coefficient in y ~ 1 + x + x^2 is the
+        # weighted regression of the linear fit's residuals on the part of x^2 that is
+        # orthogonal (weighted) to 1 and x; the residual SS drops by curv^2 |q_perp|^2
         xc = x - s1 / s0
-        design = np.column_stack([np.ones(n), xc, xc * xc]) * np.sqrt(w)[:, None]
-        coef, *_ = np.linalg.lstsq(design, y * np.sqrt(w), rcond=None)
-        res2 = y * np.sqrt(w) - design @ coef
+        q = xc * xc
+        sxx = float((w * xc * xc).sum())
+        q_perp = q - (w * q).sum() / s0 - xc * ((w * xc * q).sum() / sxx)
+        sqq = float((w * q_perp * q_perp).sum())
         dof = n - 3
-        sigma2 = float(res2 @ res2) / dof
-        cov = sigma2 * np.linalg.pinv(design.T @ design)
-        se_c = float(np.sqrt(cov[2, 2]))
-        curv = float(coef[2])
-        if se_c > 0:
-            curv_p = float(2 * special.stdtr(dof, -abs(curv / se_c)))  # two-sided t
-        else:
-            curv_p = 0.0 if curv != 0 else 1.0
+        if sqq > 1e-14 * float((w * q * q).sum()):
+            curv = float((w * q_perp * resid).sum() / sqq)
+            sigma2 = max(ss_res - curv * curv * sqq, 0.0) / dof
+            se_c = float(np.sqrt(sigma2 / sqq))
+            if se_c > 0:
+                curv_p = float(2 * special.stdtr(dof, -abs(curv / se_c)))  # two-sided t
+            else:
+                curv_p = 0.0 if curv != 0 else 1.0
     return LogLogFit(float(slope), float(intercept), se, float(r2), curv, curv_p, int(n))
 
 
