@@ -214,18 +214,19 @@ def _schwert_maxlag(n: int) -> int:
     return max(0, min(int(math.ceil(12.0 * (n / 100.0) ** 0.25)), n // 2 - 2))
 
 
-def _adf_design(x: np.ndarray, dx: np.ndarray, lags: int, *, level_last: bool) -> np.ndarray:
-    """Z = [regressors, response] of the ADF regression, one column per variable.
+def _adf_design(x: np.ndarray, dx: np.ndarray, lags: int, *, rows: tuple[int, int] | None = None
+                ) -> np.ndarray:
+    """Z = [x_{t-1}, dx_{t-1}, ..., dx_{t-lags}, dx_t] of the ADF regression (no constant).
 
-    Response dx[lags:]; regressors x_{t-1} and dx_{t-1}, ..., dx_{t-lags} (no constant),
-    with x_{t-1} first or, for the final fit, last (its t-statistic is then the last
-    projection).
+    One row per response index t (dx_t = x_{t+1} - x_t) in ``rows`` = [first, stop),
+    default [lags, n - 1): all rows with every lag available.
     """
     n = x.size
-    lagged = [dx[lags - j : n - 1 - j] for j in range(1, lags + 1)]
-    level = x[lags : n - 1]
-    cols = [*lagged, level] if level_last else [level, *lagged]
-    return np.column_stack([*cols, dx[lags:]])
+    first, stop = rows if rows is not None else (lags, n - 1)
+    cols = [x[first:stop]]
+    cols.extend(dx[first - j : stop - j] for j in range(1, lags + 1))
+    cols.append(dx[first:stop])
+    return np.column_stack(cols)
 
 
 def _mackinnon_p_constant(stat: float) -> float:
@@ -243,27 +244,25 @@ def _mackinnon_p_constant(stat: float) -> float:
     return float(special.ndtr(np.polynomial.polynomial.polyval(stat, coef)))
 
 
-def _projections(z: np.ndarray) -> tuple[np.ndarray, float]:
-    """Q'y of the centred, unit-norm regressor columns of ``z`` (in order; the response is
-    the last column) and the centred y'y.
+def _projections(mom: np.ndarray, sums: np.ndarray, m: int) -> tuple[np.ndarray, float]:
+    """Q'y of the centred, unit-norm regressors and the centred y'y, from moments.
 
-    Centring every column and y is the same as including a constant (Frisch-Waugh);
-    scaling to unit norm makes the Gram matrix a correlation matrix, so its Cholesky
-    factor R = L' is the QR factor R of the scaled columns, and Q'y = L^{-1} X'y.  All
-    of it comes from one moment matrix M = Z'Z (a single BLAS product), centred as
-    M - m zbar zbar' (the caller passes a level column centred on the series mean, so no
-    digits are lost), without forming centred or scaled copies of the regressors.
+    ``mom`` = Z'Z and ``sums`` = Z'1 over the m rows of Z = [regressors (in the order of
+    the projection), response].  Centring every column and y is the same as including a
+    constant (Frisch-Waugh): the centred moments are mom - sums sums' / m (the caller
+    passes a level column centred on the series mean, so no digits are lost).  Scaling to
+    unit norm makes the Gram matrix a correlation matrix, so its Cholesky factor R = L' is
+    the QR factor R of the scaled columns, and Q'y = L^{-1} X'y.
     """
-    m = z.shape[0]
-    zbar = np.add.reduce(z, axis=0) / m
-    mom = z.T @ z - m * np.outer(zbar, zbar)
-    norm = np.sqrt(np.maximum(np.diag(mom)[:-1], 0.0))
-    if not np.all(norm > 1e-12 * np.sqrt(m) * np.abs(zbar[:-1]).max(initial=1.0)):
+    cen = mom - np.outer(sums, sums) / m
+    norm = np.sqrt(np.maximum(np.diag(cen)[:-1], 0.0))
+    scale = np.abs(sums[:-1]).max(initial=0.0) / m + 1.0
+    if not np.all(norm > 1e-12 * np.sqrt(m) * scale):
         raise np.linalg.LinAlgError("a regressor is constant")  # degenerate window
-    gram = mom[:-1, :-1] / np.outer(norm, norm)
+    gram = cen[:-1, :-1] / np.outer(norm, norm)
     chol = np.linalg.cholesky(gram)
-    qty = solve_triangular(chol, mom[:-1, -1] / norm, lower=True, check_finite=False)
-    return qty, float(mom[-1, -1])
+    qty = solve_triangular(chol, cen[:-1, -1] / norm, lower=True, check_finite=False)
+    return qty, float(cen[-1, -1])
 
 
 def adf_test(
@@ -300,7 +299,9 @@ def adf_test(
     norm; one Cholesky factor R of the Gram matrix of [x_{t-1}, dx_{t-1}, ...] is the
     QR factor, and every nested RSS follows from z = R^{-T} X'y:
     RSS_p = y'y - sum_{i <= p+1} z_i^2. The final fit puts x_{t-1} last so its
-    t-statistic is z_last / s. This reproduces
+    t-statistic is z_last / s; its moment matrix is that of the search sample restricted
+    to its columns plus the few rows the search sample left out, so the long design
+    matrix is built once. This reproduces
     ``statsmodels.tsa.stattools.adfuller(x, regression="c")`` (checked to 1e-8 in the
     tests) at a small fraction of its cost, so no cap below the Schwert rule is needed.
     p-value: MacKinnon (1994) response surface with the tables of
@@ -344,19 +345,29 @@ def adf_test(
     dx = np.diff(x)
     lags = maxlag
     try:
+        # one design over the search sample t = maxlag .. n-2: [level, dx lags 1..maxlag, y]
+        z = _adf_design(x, dx, maxlag)
+        mom, sums, nobs = z.T @ z, np.add.reduce(z, axis=0), z.shape[0]
         if autolag is not None and maxlag > 0:
-            z = _adf_design(x, dx, maxlag, level_last=False)
-            qty, yy = _projections(z)
+            qty, yy = _projections(mom, sums, nobs)
             rss = np.maximum(yy - np.cumsum(qty**2), np.finfo(float).tiny)
             ncols = np.arange(2, maxlag + 3)  # constant + level + p lags, p = 0..maxlag
-            aic = z.shape[0] * np.log(rss) + 2.0 * ncols
+            aic = nobs * np.log(rss) + 2.0 * ncols
             lags = int(np.argmin(aic))  # first minimum: ties go to the smaller lag
-        # level last: its t-statistic is (Q'y)_last / s, since R_ll > 0 (Cholesky)
-        z = _adf_design(x, dx, lags, level_last=True)
-        qty, yy = _projections(z)
+        # final fit on its own sample t = lags .. n-2 with the level last (its t-statistic
+        # is then (Q'y)_last / s, since R_ll > 0): the search moments of those columns plus
+        # the rows t = lags .. maxlag-1 that the search sample left out
+        cols = [*range(1, lags + 1), 0, maxlag + 1]
+        mom, sums = mom[np.ix_(cols, cols)], sums[cols]
+        if lags < maxlag:
+            extra = _adf_design(x, dx, lags, rows=(lags, maxlag))
+            extra = extra[:, [*range(1, lags + 1), 0, lags + 1]]
+            mom = mom + extra.T @ extra
+            sums = sums + np.add.reduce(extra, axis=0)
+            nobs += maxlag - lags
+        qty, yy = _projections(mom, sums, nobs)
     except np.linalg.LinAlgError:  # exactly collinear regressors (degenerate window)
         return ADFResult(math.nan, math.nan, -1, maxlag, n - 1 - maxlag, "singular")
-    nobs = z.shape[0]
     dof = nobs - (lags + 2)
     stat = float(qty[-1] / math.sqrt(max(yy - float(qty @ qty), 0.0) / dof))
     pvalue = _mackinnon_p_constant(stat)
