@@ -359,3 +359,30 @@ def test_adf_pvalue_equals_statsmodels_mackinnonp():
     for stat in np.linspace(-25.0, 3.0, 561):
         assert _mackinnon_p_constant(stat) == pytest.approx(
             mackinnonp(stat, regression="c", N=1), abs=1e-14)
+
+
+@pytest.mark.parametrize("regression", ["c", "ct"])
+@pytest.mark.parametrize("nlags", ["auto", "legacy", 3])
+def test_kpss_equals_statsmodels(regression, nlags):
+    # Source: statsmodels.tsa.stattools.kpss (statistic, lags, p-value and the
+    # InterpolationWarning direction); kpss_test computes the same without its overhead
+    import warnings as _w
+
+    from statsmodels.tools.sm_exceptions import InterpolationWarning
+
+    from tfhrv.synth import fgn
+
+    for seed, n in ((1, 130), (2, 350), (3, 1000), (4, 18000)):
+        for x in (fgn(n, 0.7, rng=seed), np.cumsum(fgn(n, 0.5, rng=seed)),
+                  fgn(n, 0.9, rng=seed) + np.linspace(0.0, 2.0, n)):
+            x = 800.0 + 40.0 * x
+            with _w.catch_warnings(record=True) as caught:
+                _w.simplefilter("always", InterpolationWarning)
+                ref = kpss(x, regression=regression, nlags=nlags, result_object=True)
+            ours = kpss_test(x, regression=regression, nlags=nlags)
+            assert ours.lags == ref.lags
+            assert ours.statistic == pytest.approx(ref.statistic, rel=1e-9)
+            assert ours.pvalue == pytest.approx(ref.pvalue, rel=1e-9)
+            text = " ".join(str(w.message) for w in caught)
+            expected = "lower" if "smaller" in text else "upper" if "greater" in text else None
+            assert ours.pvalue_bound == expected

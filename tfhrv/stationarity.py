@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import functools
 import math
-import warnings
 from dataclasses import dataclass
 from typing import Literal
 
@@ -25,9 +24,7 @@ import numpy as np
 from scipy import fft as sp_fft
 from scipy import special
 from scipy.linalg import solve_triangular
-from statsmodels.tools.sm_exceptions import InterpolationWarning
 from statsmodels.tsa import adfvalues as _adfv
-from statsmodels.tsa.stattools import kpss as _sm_kpss
 
 from tfhrv._validation import as_1d_float, check_choice, readonly
 
@@ -384,7 +381,8 @@ def kpss_test(
     regression: Literal["c", "ct"] = "c",
     nlags: Literal["auto", "legacy"] | int = "auto",
 ) -> KPSSResult:
-    """KPSS stationarity test (statsmodels) with the table-edge clipping as data.
+    """KPSS stationarity test, as statsmodels computes it, with the table-edge clipping as
+    data.
 
     Parameters
     ----------
@@ -406,11 +404,14 @@ def kpss_test(
     KPSS = sum_t S_t^2 / (n^2 s^2(l)), with S_t the partial sums of the residuals of
     x on a constant (or constant and trend) and s^2(l) the Newey-West long-run
     variance with Bartlett weights 1 - i/(l+1). The p-value is interpolated in Table 1
-    of Kwiatkowski et al. (1992), so it is clipped to [0.01, 0.10]; statsmodels then
-    emits ``InterpolationWarning``, which we catch and store as ``pvalue_bound``
+    of Kwiatkowski et al. (1992), so it is clipped to [0.01, 0.10]; where statsmodels
+    warns (``InterpolationWarning``) the clipping is stored as ``pvalue_bound``
     ("lower" = the true p is smaller, "upper" = larger). A constant series gives a
-    zero long-run variance: NaN with ``flag="constant"``. Calls statsmodels with
-    ``result_object=True`` (0.15 warns otherwise).
+    zero long-run variance: NaN with ``flag="constant"``. The statistic, the lag rules
+    and the p-value interpolation are those of ``statsmodels.tsa.stattools.kpss``
+    (statistic, p-value and lags checked equal in the tests), computed here directly:
+    the statsmodels call costs about 0.3 ms, which over the ~600 KPSS tests of a 24-h
+    record was a tenth of ``tfhrv inspect``.
 
     References
     ----------
@@ -433,19 +434,51 @@ def kpss_test(
         check_choice(nlags, "nlags", ("auto", "legacy"))
     if x.max() == x.min():
         return KPSSResult(math.nan, math.nan, None, 0, regression, "constant")
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", InterpolationWarning)
-        res = _sm_kpss(x, regression=regression, nlags=nlags, result_object=True)
-    bound = None
-    for w in caught:
-        if issubclass(w.category, InterpolationWarning):
-            text = str(w.message)
-            bound = "lower" if "smaller" in text else "upper" if "greater" in text else None
-        else:  # not ours to swallow: pass it on unchanged
-            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-    return KPSSResult(
-        float(res.statistic), float(res.pvalue), bound, int(res.lags), regression, None
-    )
+    n = x.size
+    if regression == "ct":  # residuals of the OLS line on t = 1..n
+        t = np.arange(1.0, n + 1.0)
+        tc = t - t.mean()
+        resid = x - x.mean() - tc * ((tc @ (x - x.mean())) / (tc @ tc))
+        crit = _KPSS_CRIT_TREND
+    else:
+        resid = x - x.mean()
+        crit = _KPSS_CRIT_LEVEL
+    if nlags == "legacy":
+        lags = min(int(np.ceil(12.0 * np.power(n / 100.0, 1 / 4.0))), n - 1)
+    elif nlags == "auto":
+        lags = min(_kpss_autolag(resid), n - 1)
+    else:
+        lags = int(nlags)
+        if not 0 <= lags < n:
+            raise ValueError(f"nlags must be in [0, {n - 1}] for n = {n}, got {nlags!r}")
+    eta = np.sum(resid.cumsum() ** 2) / (n**2)
+    s_hat = float(resid @ resid)
+    for i in range(1, lags + 1):
+        s_hat += 2.0 * float(resid[i:] @ resid[: n - i]) * (1.0 - i / (lags + 1.0))
+    stat = float(eta / (s_hat / n))
+    p = float(np.interp(stat, crit, _KPSS_PVALUES))
+    bound = "lower" if p == _KPSS_PVALUES[-1] else "upper" if p == _KPSS_PVALUES[0] else None
+    return KPSSResult(stat, p, bound, lags, regression, None)
+
+
+#: Kwiatkowski et al. (1992) Table 1 critical values at the p-values below (as statsmodels).
+_KPSS_PVALUES = (0.10, 0.05, 0.025, 0.01)
+_KPSS_CRIT_LEVEL = (0.347, 0.463, 0.574, 0.739)
+_KPSS_CRIT_TREND = (0.119, 0.146, 0.176, 0.216)
+
+
+def _kpss_autolag(resid: np.ndarray) -> int:
+    """Bartlett lag of Hobijn, Franses & Ooms (1998), as ``statsmodels`` computes it."""
+    n = resid.size
+    covlags = int(np.power(n, 2.0 / 9.0))
+    s0 = float(np.sum(resid**2)) / n
+    s1 = 0.0
+    for i in range(1, covlags + 1):
+        prod = float(resid[i:] @ resid[: n - i]) / (n / 2.0)
+        s0 += prod
+        s1 += i * prod
+    s_hat = s1 / s0
+    return int(1.1447 * np.power(s_hat * s_hat, 1.0 / 3.0) * np.power(n, 1.0 / 3.0))
 
 
 # --------------------------------------------------------------------------- surrogates
