@@ -62,10 +62,10 @@ def main() -> None:
             t0 = time.perf_counter()
             assess_record(cleaned, long_categories=category_codes(results[1]))
             t_rec = time.perf_counter() - t0
-            t_ins = median_time(lambda: inspect_record(cleaned), 1)  # noqa: B023
+            t_ins = median_time(lambda: inspect_record(cleaned), args.runs)  # noqa: B023
             t_scan = float("nan")
             if not args.no_scan:
-                t_scan = median_time(lambda: scan(cleaned), 1)  # noqa: B023
+                t_scan = median_time(lambda: scan(cleaned), args.runs)  # noqa: B023
             print(f"{days:5g} {rec.n_beats:8d} {t_read:10.3f}s {t_win:7.3f}s {t_bat:7.3f}s "
                   f"{t_rec:7.3f}s {t_ins:7.3f}s {t_scan:7.2f}s", flush=True)
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024

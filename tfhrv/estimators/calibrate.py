@@ -105,10 +105,21 @@ def load_table(preset: str, /) -> CalibrationTable:
 
 
 def _invert(curve: np.ndarray, truth: np.ndarray, value: float) -> float:
-    c = np.maximum.accumulate(curve)  # monotone (the estimators are increasing in truth)
-    if value < c[0] or value > c[-1]:
+    """The true value whose (monotone) curve value equals ``value``; NaN outside."""
+    if value < curve[0] or value > curve[-1]:
         return float("nan")
-    return float(np.interp(value, c, truth))
+    return float(np.interp(value, curve, truth))
+
+
+@functools.lru_cache(maxsize=4096)
+def _monotone_curves(estimator: str, n: int) -> tuple[np.ndarray, ...]:
+    """Curves at length n made monotone (the estimators are increasing in truth), and the
+    local slope of the mean curve; cached, since the windows of a tier share lengths."""
+    table = load_table(estimator)
+    mean, sd, q_low, q_high = table.curves(n)
+    mono = [np.maximum.accumulate(c) for c in (mean, q_low, q_high)]
+    slope = np.gradient(mono[0], table.truth)
+    return (*mono, sd, slope)
 
 
 def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> ScalingFit:
@@ -142,7 +153,8 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> Sc
     (True, True)
     """
     table = load_table(estimator)
-    mean, sd, q_low, q_high = table.curves(int(fit.n_obs if n is None else n))
+    mean, q_low, q_high, sd, slope = _monotone_curves(estimator,
+                                                      int(fit.n_obs if n is None else n))
     raw = float(fit.exponent)
     est = _invert(mean, table.truth, raw)
     lo = _invert(q_high, table.truth, raw)
@@ -151,7 +163,6 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> Sc
         est = raw
         se = float(fit.se)
     else:
-        slope = np.gradient(np.maximum.accumulate(mean), table.truth)
         local = max(float(np.interp(est, table.truth, slope)), 1e-3)
         se = float(np.interp(est, table.truth, sd)) / local
     return dataclasses.replace(
