@@ -38,7 +38,8 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 
 from tfhrv import __version__  # noqa: E402
-from tfhrv._families import RecordOutcome, record_families, window_families  # noqa: E402
+from tfhrv._families import record_families, window_families  # noqa: E402
+from tfhrv.policy import Verdict  # noqa: E402
 
 NOTES = (
     "Reading notes.",
@@ -68,7 +69,7 @@ def _run(job: tuple[int, int]) -> tuple[int, str, bool]:
     index, seed = job
     fam = _families()[index]
     out = fam.run(seed)
-    label = out.verdict if isinstance(out, RecordOutcome) else str(out)
+    label = out.verdict if isinstance(out, Verdict) else str(out)
     return index, label, bool(fam.hit(out))
 
 

@@ -36,7 +36,7 @@ import numpy as np
 
 from tfhrv._synth_noise import fgn, powerlaw_noise
 from tfhrv.clean import clean
-from tfhrv.policy import assess_record
+from tfhrv.policy import Verdict, assess_record
 from tfhrv.recording import Recording
 from tfhrv.stationarity import CATEGORIES, stationarity_battery
 from tfhrv.windows import LONG, category_codes, tier_stationarity, tier_windows
@@ -151,25 +151,12 @@ def record(*, beta: float = 1.0, hours: float = 24.0, gap_min: float = 0.0,
     return _recording(nn, labels, drop=drop, record_id=f"family-{seed}")
 
 
-@dataclass(frozen=True, slots=True)
-class RecordOutcome:
-    """Verdict of one synthetic record and the facts it rests on."""
-
-    verdict: str
-    reasons: tuple[str, ...]
-    cautions: tuple[str, ...]
-    longest_gap_s: float
-    ectopic_share: float
-    nonstationary_share: float
-
-
-def record_outcome(rec: Recording) -> RecordOutcome:
-    """Clean, run the long-tier battery and judge the record as ``tfhrv inspect`` does."""
+def record_outcome(rec: Recording) -> Verdict:
+    """Clean, run the long-tier battery and judge the record as ``tfhrv inspect`` does
+    (the verdict's ``checks`` hold the longest gap, ectopic and non-stationary shares)."""
     cleaned = clean(rec)
     codes = category_codes(tier_stationarity(tier_windows(cleaned, LONG), seed=INSPECT_SEED))
-    v = assess_record(cleaned, long_categories=codes).verdict
-    return RecordOutcome(v.verdict, v.reasons, v.cautions, cleaned.quality.longest_gap_s,
-                         cleaned.quality.ectopic_share, v.checks["nonstationary_share"])
+    return assess_record(cleaned, long_categories=codes).verdict
 
 
 # --------------------------------------------------------------------------- the families
@@ -200,7 +187,7 @@ def _is_alarm(category: object) -> bool:
 
 def _verdict_is(*allowed: str, topic: str | None = None) -> Callable[[object], bool]:
     def hit(out: object) -> bool:
-        assert isinstance(out, RecordOutcome)
+        assert isinstance(out, Verdict)
         if out.verdict not in allowed:
             return False
         if topic is None or out.verdict == "fit":
@@ -210,7 +197,7 @@ def _verdict_is(*allowed: str, topic: str | None = None) -> Callable[[object], b
 
 
 def _no_stationarity_unfit(out: object) -> bool:
-    assert isinstance(out, RecordOutcome)
+    assert isinstance(out, Verdict)
     return not any(r.startswith("stationarity") for r in out.reasons)
 
 
@@ -284,6 +271,6 @@ def record_families() -> list[Family]:
     return fams
 
 
-__all__ = ["ALARMS", "CATEGORIES", "Family", "RecordOutcome", "background", "inject",
+__all__ = ["ALARMS", "CATEGORIES", "Family", "background", "inject",
            "record", "record_families", "record_outcome", "window_category",
            "window_families"]
