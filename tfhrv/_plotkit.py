@@ -210,7 +210,7 @@ def _time_axis(ax, clock: _Clock, t_max_h: float) -> None:
 
 def _rest(tree: xr.DataTree):
     """Night/day masks of the short windows from tfhrv.rhythm, or None when unavailable."""
-    from tfhrv.rhythm import RhythmOptions, _periods
+    from tfhrv.rhythm import RhythmOptions, _period_label, _periods
 
     short = _ds(tree, "short")
     if short is None or short.sizes.get("time", 0) == 0:
@@ -226,13 +226,7 @@ def _rest(tree: xr.DataTree):
         night = kept["short_night"].values.astype(bool)
         day = kept["short_day"].values.astype(bool)
         return night, day, day_index, str(kept["short_night"].attrs["period_label"])
-    if source == "clock":
-        label = f"night {_hhmm(opt.night_hours[0])}–{_hhmm(opt.night_hours[1])} (clock)"
-    elif source == "inferred rest period":
-        label = "rest period (inferred: longest mean NN)"
-    else:
-        label = f"rest period ({source})"
-    return night, day, day_index, label
+    return night, day, day_index, _period_label(source, opt)
 
 
 def _tier_hours(ds: xr.Dataset) -> tuple[np.ndarray, float]:

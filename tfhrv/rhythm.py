@@ -283,10 +283,7 @@ def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
     ds = xr.Dataset.from_dataframe(table.reset_index(drop=True).rename_axis("row"))
     if tree is not None:
         night, day, _, source = _periods(tree, "short", options, sleep_log)
-        label = {"clock": f"night {_clock(options.night_hours[0])}–"
-                          f"{_clock(options.night_hours[1])} (clock)",
-                 "inferred rest period": "rest period (inferred: longest mean NN)"}.get(
-                     source, f"rest period ({source})")
+        label = _period_label(source, options)
         for name, mask, what in (("short_night", night, "night/rest"), ("short_day", day, "day")):
             ds[name] = ("short_window", mask.astype(np.int8), {
                 "long_name": f"short window lies in the {what} period used by the contrasts",
@@ -310,6 +307,16 @@ def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
 
 def _fmt(v: float, digits: int = 2) -> str:
     return "n/a" if not np.isfinite(v) else f"{v:.{digits}f}"
+
+
+def _period_label(source: str, options: RhythmOptions) -> str:
+    """How figures name the night/rest period of a ``_periods`` source."""
+    if source == "clock":
+        return (f"night {_clock(options.night_hours[0])}–{_clock(options.night_hours[1])} "
+                "(clock)")
+    if source == "inferred rest period":
+        return "rest period (inferred: longest mean NN)"
+    return f"rest period ({source})"
 
 
 def _clock(h: float) -> str:

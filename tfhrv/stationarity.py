@@ -435,14 +435,12 @@ def kpss_test(
     if x.max() == x.min():
         return KPSSResult(math.nan, math.nan, None, 0, regression, "constant")
     n = x.size
+    resid = x - x.mean()
+    crit = _KPSS_CRIT_LEVEL
     if regression == "ct":  # residuals of the OLS line on t = 1..n
-        t = np.arange(1.0, n + 1.0)
-        tc = t - t.mean()
-        resid = x - x.mean() - tc * ((tc @ (x - x.mean())) / (tc @ tc))
+        tc = np.arange(n) - (n - 1) / 2.0
+        resid = resid - tc * ((tc @ resid) / (tc @ tc))
         crit = _KPSS_CRIT_TREND
-    else:
-        resid = x - x.mean()
-        crit = _KPSS_CRIT_LEVEL
     if nlags == "legacy":
         lags = min(int(np.ceil(12.0 * np.power(n / 100.0, 1 / 4.0))), n - 1)
     elif nlags == "auto":

@@ -660,14 +660,12 @@ def spectral_exponent(
 def _lack_of_fit(x: np.ndarray, y: np.ndarray, counts: np.ndarray, fit,
                  dof: float | None) -> tuple[float, float]:
     """Lack-of-fit p-value (Monte-Carlo null) and excess RMS scatter (see spectral_exponent)."""
-    if dof is None:
+    if dof is None or y.size <= 2:
         return float("nan"), float("nan")
     nu = check_positive(dof, "ordinate_dof")
     m = counts.astype(np.int64)
     var_b = float(special.polygamma(1, nu / 2.0)) / np.log(10.0) ** 2 / m
     resid2 = (y - (fit.intercept + fit.slope * x)) ** 2
-    if y.size <= 2:
-        return float("nan"), float("nan")
     stat = float(np.sum(resid2 / var_b))
     # null: the same bins filled with independent log10(chi^2_nu / nu) ordinates, the same
     # unweighted line fitted; the statistic does not depend on the true slope or level
