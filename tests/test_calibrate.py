@@ -16,7 +16,7 @@ alarm about 6e-5 for a Gaussian mean.  Coverage: with true coverage 0.95, P(fewe
 of 10 intervals cover) = 0.001 (binomial).
 
 Seeds start at 10^9 so that no draw repeats one used to build the calibration tables
-(scripts/make_calibration.py uses seeds below 10^7).
+(scripts/make_calibration.py uses seeds below 10^8).
 """
 
 from __future__ import annotations
@@ -27,7 +27,14 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from tfhrv.estimators.calibrate import calibrate, load_table
+from tfhrv.estimators.calibrate import (
+    CLASS_THRESHOLD,
+    _confidence_set,
+    calibrate,
+    class_statistic,
+    load_table,
+    table_name,
+)
 from tfhrv.estimators.presets import PRESETS, estimate
 from tfhrv.synth import fgn
 
@@ -167,20 +174,26 @@ def test_calibrate_keeps_raw_and_marks_calibrated():
 
 @pytest.mark.parametrize("preset", CHECKED)
 def test_table_mean_curves_increase(preset):
-    # The inversion needs E[estimate] strictly increasing in the truth.  Checked at the
-    # lengths validated here and in scripts/validate_estimators.py (2^14, 2^16); the
-    # spectral preset only over beta in [-0.4, 2.2]: its mean curve flattens at both ends
-    # of the grid (see docs/validation_estimators.md), so it is not invertible there.
+    # The point estimate inverts E[estimate], which must increase in the truth under the
+    # default "powerlaw" model.  Checked at the lengths validated here and in
+    # scripts/validate_estimators.py (2^14, 2^16); the spectral preset only over beta in
+    # [-0.4, 2.0]: leakage flattens its mean curve at both ends of the grid (see
+    # docs/validation_estimators.md), so it is not invertible there.  Where the two
+    # simulated families meet (fGn H = 0.98 and 1/f^beta noise with alpha = 1.02) the
+    # curve may be flat to within the Monte-Carlo error: alpha1 is about 1.04 for both.
     table = load_table(preset)
     keep = np.ones(table.truth.size, dtype=bool)
     if preset == "beta_spectral_long":
-        keep = (table.truth >= -0.4) & (table.truth <= 2.2)
+        keep = (table.truth >= -0.4) & (table.truth <= 2.0)
+    join = np.flatnonzero(table.truth[keep] < 1.0)[-1]  # diff index across alpha = 1
     checked = 0
     for k, n in enumerate(table.lengths):
-        col = table.mean[keep, k]
+        col = table.mean[0, keep, k]
         if n not in (N14, N16) or np.all(np.isnan(col)):
             continue
-        assert np.all(np.diff(col) > 0), (n, col)
+        d = np.diff(col)
+        assert d[join] > -0.005, (n, col)
+        assert np.all(np.delete(d, join) > 0), (n, col)
         checked += 1
     assert checked >= 2
 
@@ -188,8 +201,14 @@ def test_table_mean_curves_increase(preset):
 @pytest.mark.parametrize("preset", CHECKED)
 def test_calibrated_values_monotone_in_raw(preset):
     fit = estimate(preset, _nn(fgn(N16, 0.5, rng=SEED0 + 400)))
-    mean = load_table(preset).curves(fit.n_obs)[0]
-    grid = np.linspace(np.nanmin(mean), np.nanmax(mean), 60)
+    mean = load_table(preset).curves(fit.n_obs).mean
+    lo, hi = np.nanmin(mean), np.nanmax(mean)
+    if preset == "beta_spectral_long":
+        # leakage folds its belt back at both ends: true beta of 2.4-2.96 gives raw slopes
+        # down to about 1.2, so above that the confidence set honestly reaches the top of
+        # the grid (open upper end); the ends are monotone below it
+        lo, hi = -0.3, 1.1
+    grid = np.linspace(lo, hi, 60)
     out = np.array([(c.exponent, *c.ci) for c in (
         calibrate(dataclasses.replace(fit, exponent=float(v)), estimator=preset)
         for v in grid)])
@@ -201,7 +220,8 @@ def test_calibrated_values_monotone_in_raw(preset):
 
 def test_out_of_range_raw_gives_nan_ends_not_numbers():
     fit = estimate("alpha2", _nn(fgn(N14, 0.5, rng=SEED0 + 500)))
-    mean, _, q_low, q_high = load_table("alpha2").curves(fit.n_obs)
+    c = load_table("alpha2").curves(fit.n_obs)
+    mean, q_low, q_high = c.mean, c.q_low, c.q_high
     # far above every curve: no end can be inverted, exponent left uncorrected
     far = calibrate(dataclasses.replace(fit, exponent=float(q_high.max()) + 0.5),
                     estimator="alpha2")
@@ -216,7 +236,7 @@ def test_out_of_range_raw_gives_nan_ends_not_numbers():
     assert q_low.max() < v < q_high.max()
     edge = calibrate(dataclasses.replace(fit, exponent=v), estimator="alpha2")
     assert np.isnan(edge.ci[1])
-    assert np.isfinite(edge.ci[0]) and edge.ci[0] < v
+    assert np.isfinite(edge.ci[0]) and edge.ci[0] < load_table("alpha2").truth[-1]
 
 
 def test_load_table_unknown_preset_names_options():
@@ -233,6 +253,93 @@ def test_load_table_unknown_preset_names_options():
 def test_curves_finite_at_every_tabulated_length(preset):
     table = load_table(preset)
     for k, n in enumerate(table.lengths):
-        finite = np.isfinite(table.mean[:, k])
+        finite = np.isfinite(table.mean[0, :, k])
         if finite.any():
-            assert np.all(np.isfinite(table.curves(int(n))[0][finite])), n
+            assert np.all(np.isfinite(table.curves(int(n)).mean[finite])), n
+
+
+# ---------------------------------------------------------------- the two calibration models
+
+
+def _run_model(preset: str, paths, model: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    est, lo, hi = [], [], []
+    for path in paths:
+        nn = _nn(path)
+        cal = calibrate(estimate(preset, nn), estimator=preset, model=model,
+                        class_stat=class_statistic(nn))
+        est.append(cal.exponent)
+        lo.append(cal.ci[0])
+        hi.append(cal.ci[1])
+    return np.array(est), np.array(lo), np.array(hi)
+
+
+@pytest.mark.parametrize("hurst", [0.1, 0.5])
+def test_alpha1_of_fbm_needs_the_fgn_fbm_model(hurst):
+    # Source (a): DFA alpha of fBm = H + 1 (Peng et al. 1995: 1.5 for Brownian motion;
+    # Eke et al. 2000).  At 4-16 beats fBm with small H looks like fGn, so the "powerlaw"
+    # model (1/f^beta noise above alpha 1) cannot recover it -- the documented limit,
+    # shown here -- while "fgn-fbm", whose class statistic reads the longest scales, can.
+    true = 1.0 + hurst
+    paths = [np.cumsum(fgn(N14, hurst, rng=SEED0 + 600 + s)) for s in range(R)]
+    est, lo, hi = _run_model("alpha1", paths, "fgn-fbm")
+    table = load_table("alpha1", model="fgn-fbm")
+    tol = 4.0 * float(est.std(ddof=1)) * np.sqrt(1.0 / R + 1.0 / table.n_rep)
+    assert abs(est.mean() - true) <= max(tol, 0.01), (est.mean(), true)
+    assert int(_covers(lo, hi, true).sum()) >= 7, (lo, hi, true)
+    wrong, wlo, whi = _run_model("alpha1", paths, "powerlaw")
+    assert wrong.mean() < true - 0.03  # outside its family: biased low ...
+    assert int(_covers(wlo, whi, true).sum()) <= 3  # ... and the intervals miss
+
+
+def test_class_statistic_tells_fgn_from_fbm():
+    # Source (a): at long scales DFA-1 gives H for fGn and H + 1 for fBm (Eke et al. 2000),
+    # so the class statistic is below 1 for fGn H = 0.9 and above it for fBm H = 0.1.
+    noise = [class_statistic(_nn(fgn(N14, 0.9, rng=SEED0 + 700 + s))) for s in range(R)]
+    motion = [class_statistic(_nn(np.cumsum(fgn(N14, 0.2, rng=SEED0 + 710 + s))))
+              for s in range(R)]
+    assert max(noise) < CLASS_THRESHOLD < min(motion)
+    assert np.isnan(class_statistic(np.ones(100)))  # too short
+
+
+def test_powerlaw_model_on_independent_one_over_f_noise():
+    # Source (b): 1/f noise (beta = 1, alpha = 1; Peng et al. 1995) from the PyPI package
+    # colorednoise (its own Timmer-Koenig 1995 code); the "powerlaw" model is continuous
+    # across alpha = 1, so the calibrated alpha2 is 1 within its Monte-Carlo error.
+    colorednoise = pytest.importorskip("colorednoise")
+    paths = [colorednoise.powerlaw_psd_gaussian(1.0, 4 * N14, random_state=SEED0 + 800 + s)[
+        N14: 2 * N14] for s in range(R)]
+    est, lo, hi = _run(("alpha2"), paths)
+    assert abs(est.mean() - 1.0) <= _bias_tolerance(est, "alpha2"), est.mean()
+    assert int(_covers(lo, hi, 1.0).sum()) >= 7
+
+
+def test_confidence_set_is_the_hull_of_a_non_monotone_belt():
+    # A belt that rises, falls back and rises again (the fGn/fBm join at short scales):
+    # an estimate inside both rising parts gives the hull of both; ends at the grid's
+    # first/last point are open (NaN); an estimate beyond every band gives no interval.
+    truth = np.array([0.0, 1.0, 2.0, 3.0])
+    mean = np.array([0.0, 1.0, 0.0, 3.0])
+    lo, hi = mean - 0.25, mean + 0.25
+    a, b = _confidence_set(truth, lo, hi, 0.5)
+    # inside on t in [0.25, 0.75], [1.25, 1.75] and [2 + 1/12, 2.25]: the hull
+    assert a == pytest.approx(0.25, abs=1e-3) and b == pytest.approx(2.25, abs=1e-3)
+    assert np.isnan(_confidence_set(truth, lo, hi, 0.1)[0])  # truth 0 itself is inside
+    assert all(np.isnan(_confidence_set(truth, lo, hi, 9.0)))
+
+
+def test_dfa_order_has_its_own_table_and_other_wavelets_none():
+    x = _nn(fgn(N14, 0.7, rng=SEED0 + 900))
+    fit2 = estimate("alpha2", x, order=2)
+    cal2 = calibrate(fit2, estimator="alpha2")
+    assert cal2.calibrated and cal2.options["calibration"] == "alpha2.q2"
+    assert table_name("alpha2", estimate("alpha2", x)) == "alpha2"
+    w4 = calibrate(estimate("beta_wavelet_long", x, vanishing_moments=4),
+                   estimator="beta_wavelet_long")
+    assert not w4.calibrated and all(np.isnan(w4.ci))
+    assert w4.exponent == w4.raw_exponent
+
+
+def test_unknown_model_is_named():
+    fit = estimate("alpha2", _nn(fgn(N14, 0.6, rng=SEED0 + 950)))
+    with pytest.raises(ValueError, match="model must be one of"):
+        calibrate(fit, estimator="alpha2", model="fbm")

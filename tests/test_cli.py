@@ -68,3 +68,11 @@ def test_installed_entry_point_runs(tmp_path):
                           capture_output=True, text=True, check=False)
     assert proc.returncode == 2
     assert "--units" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_calibration_choices_match_the_models():
+    # the CLI spells the models out (no numpy import for --help); they must not drift
+    from tfhrv.cli import CALIBRATION_MODELS
+    from tfhrv.estimators.calibrate import MODELS
+
+    assert CALIBRATION_MODELS == MODELS

@@ -159,3 +159,20 @@ def test_without_rhythm_and_clock(tree, tmp_path):
     assert "No day/night table" in body
     assert "unknown" in body
     assert not list((tmp_path / "out").glob("*.part"))
+
+
+def test_methods_name_the_calibration_model_of_the_scan():
+    import json
+
+    import xarray as xr
+
+    from tfhrv.report import _CALIBRATION_TEXT, _calibration_model
+
+    def tree(params):
+        return xr.DataTree(dataset=xr.Dataset(attrs={"parameters": params}))
+
+    fbm = tree(json.dumps({"scan": {"calibration_model": "fgn-fbm"}}))
+    assert _calibration_model(fbm) == "fgn-fbm"
+    assert "Brownian motion" in _CALIBRATION_TEXT["fgn-fbm"]
+    assert _calibration_model(tree("not json")) == "powerlaw"  # older or damaged files
+    assert _calibration_model(tree(json.dumps({"scan": {}}))) == "powerlaw"

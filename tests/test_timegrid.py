@@ -174,3 +174,28 @@ def test_level_shift_windows_do_not_use_fft_as_primary():
     est = long["estimator"].values[straddle]
     assert straddle.any()
     assert not np.any(est == 1), long["reason"].values[straddle]  # 1 = spectral
+
+
+def test_calibration_model_is_recorded_and_used():
+    # A 3-h random walk (fBm, H = 0.5; DFA alpha = 1.5, Peng et al. 1995): under the
+    # "fgn-fbm" model the whole-record alpha1 is centred on 1.5, under "powerlaw" (1/f^beta
+    # noise above alpha 1, outside its family here) it is pulled low -- the difference the
+    # validation tables show, carried through the scan.  Both runs name their model and
+    # the calibration table in the provenance.
+    import json
+
+    from tfhrv.estimators.calibrate import table_sha256
+
+    walk = np.cumsum(fgn(int(3 * 3600 / 0.8), 0.5, rng=11))
+    rr = 800.0 + 50.0 * (walk - walk.mean()) / walk.std()
+    cleaned = clean(Recording.from_intervals(rr, start=START, record_id="walk"))
+    out = {}
+    for model in ("powerlaw", "fgn-fbm"):
+        tree = scan(cleaned, options=ScanOptions(calibration_model=model))
+        assert json.loads(tree.attrs["parameters"])["scan"]["calibration_model"] == model
+        assert tree.attrs["calibration_table_sha256"] == table_sha256()
+        out[model] = float(tree["/record"]["alpha1"])
+    raw = float(tree["/record"]["alpha1_raw"])
+    assert abs(raw - 1.5) < 0.05  # DFA-1 of a random walk at 4-16 beats: about 1.5
+    assert abs(out["fgn-fbm"] - 1.5) < 0.03
+    assert out["powerlaw"] < out["fgn-fbm"] - 0.02

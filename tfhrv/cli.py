@@ -42,6 +42,11 @@ def _add_reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--record-id", help="record identifier (default: from the file)")
 
 
+#: tfhrv.estimators.calibrate.MODELS, spelled out so that --help needs no numpy import
+#: (tests/test_cli.py checks that the two agree)
+CALIBRATION_MODELS = ("powerlaw", "fgn-fbm")
+
+
 def _add_scan_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("windows and estimators")
     g.add_argument("--short-window", type=float, default=5.0, help="short window, min (5)")
@@ -51,7 +56,11 @@ def _add_scan_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--dfa-order", type=int, choices=(1, 2, 3), default=1,
                    help="DFA detrending order (1)")
     g.add_argument("--vanishing-moments", type=int, default=3,
-                   help="wavelet vanishing moments (3)")
+                   help="wavelet vanishing moments (3; only 3 has calibrated intervals)")
+    g.add_argument("--calibration", choices=CALIBRATION_MODELS, default="powerlaw",
+                   help="model of the calibrated intervals: 'powerlaw' (fGn below alpha 1, "
+                   "1/f^beta noise above; default) or 'fgn-fbm' (fGn below, fBm above, the "
+                   "class read at the longest scales)")
 
 
 def _read(args: argparse.Namespace):
@@ -99,6 +108,7 @@ def _scan_options(args: argparse.Namespace):
         short=replace(SHORT, window_s=args.short_window * 60.0, hop_s=args.short_hop * 60.0),
         long=replace(LONG, window_s=args.long_window * 3600.0, hop_s=args.long_hop * 3600.0),
         dfa_order=args.dfa_order, vanishing_moments=args.vanishing_moments,
+        calibration_model=args.calibration,
     )
 
 

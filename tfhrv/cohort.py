@@ -300,12 +300,15 @@ class CohortOptions:
 def parameter_hash(options: CohortOptions, entry: ManifestEntry, /) -> str:
     """SHA-256 (hex) of the JSON of all options, the record's own inputs and the version.
 
-    The record id, start and sleep-log content enter because they change the output; the
-    group and extra columns do not (they are read from the manifest at every run).
+    The record id, start and sleep-log content enter because they change the output, and so
+    does the calibration table file; the group and extra columns do not (they are read
+    from the manifest at every run).
     """
     from tfhrv import __version__
+    from tfhrv.estimators.calibrate import table_sha256
 
-    blob = {"tfhrv_version": __version__, "clean": asdict(options.clean),
+    blob = {"tfhrv_version": __version__, "calibration_sha256": table_sha256(),
+            "clean": asdict(options.clean),
             "scan": asdict(options.scan), "rhythm": asdict(options.rhythm),
             "record": entry.record, "start": entry.start,
             "sleep_log_sha256": file_sha256(entry.sleep_log) if entry.sleep_log else None}

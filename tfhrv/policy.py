@@ -16,7 +16,7 @@ import numpy as np
 from tfhrv.clean import CleanResult
 from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit
-from tfhrv.estimators.calibrate import calibrate
+from tfhrv.estimators.calibrate import calibrate, class_statistic
 from tfhrv.estimators.dfa import Fluctuation
 from tfhrv.estimators.presets import DFA_PRESETS, estimate, estimate_dfa, long_band
 
@@ -338,8 +338,12 @@ def fitness_verdict(
 
 
 def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray | None = None,
-                   order: int = 1, vanishing_moments: int = 3) -> ScalingFit | None:
-    """Run a preset (:mod:`tfhrv.estimators.presets`) and calibrate it.
+                   order: int = 1, vanishing_moments: int = 3,
+                   calibration_model: str = "powerlaw",
+                   class_stat: float | None = None) -> ScalingFit | None:
+    """Run a preset (:mod:`tfhrv.estimators.presets`) and calibrate it under
+    ``calibration_model`` (:mod:`tfhrv.estimators.calibrate`; ``class_stat`` is computed
+    from ``nn_ms`` when the model needs it and none is given).
 
     Returns None when the series cannot support the preset (too short, constant, ...).
     """
@@ -352,12 +356,16 @@ def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray
         return None
     if not np.isfinite(raw.exponent):
         return None
-    return calibrate(raw, estimator=preset, n=int(np.size(nn_ms)))
+    if calibration_model == "fgn-fbm" and class_stat is None:
+        class_stat = class_statistic(nn_ms)
+    return calibrate(raw, estimator=preset, n=int(np.size(nn_ms)), model=calibration_model,
+                     class_stat=class_stat)
 
 
 def calibrated_fits(presets: dict[str, str], nn_ms: np.ndarray, /, *,
                     beat_time_s: np.ndarray | None = None, order: int = 1,
                     vanishing_moments: int = 3, dfa_scales: np.ndarray | None = None,
+                    calibration_model: str = "powerlaw",
                     ) -> tuple[dict[str, ScalingFit | None], Fluctuation | None]:
     """Several calibrated presets on one series (name -> preset), the DFA ones from a
     shared fluctuation function (:func:`tfhrv.estimators.presets.estimate_dfa`).
@@ -378,14 +386,17 @@ def calibrated_fits(presets: dict[str, str], nn_ms: np.ndarray, /, *,
         pass
     out: dict[str, ScalingFit | None] = {}
     n = int(np.size(nn_ms))
+    stat = class_statistic(nn_ms) if calibration_model == "fgn-fbm" else None
     for var, preset in presets.items():
         if preset in DFA_PRESETS:
             raw = raw_dfa.get(preset)
             ok = raw is not None and np.isfinite(raw.exponent)
-            out[var] = calibrate(raw, estimator=preset, n=n) if ok else None
+            out[var] = calibrate(raw, estimator=preset, n=n, model=calibration_model,
+                                 class_stat=stat) if ok else None
         else:
             out[var] = calibrated_fit(preset, nn_ms, beat_time_s=beat_time_s, order=order,
-                                      vanishing_moments=vanishing_moments)
+                                      vanishing_moments=vanishing_moments,
+                                      calibration_model=calibration_model, class_stat=stat)
     return out, fl
 
 
@@ -418,6 +429,7 @@ def assess_record(
     order: int = 1,
     vanishing_moments: int = 3,
     thresholds: FitnessThresholds | None = None,
+    calibration_model: str = "powerlaw",
 ) -> RecordAssessment:
     """Whole-record exponents and the FFT-slope fitness verdict.
 
@@ -429,13 +441,16 @@ def assess_record(
         (index into :data:`tfhrv.stationarity.CATEGORIES`).
     band_hz : (float, float)
         The classical band whose FFT slope is being judged.
+    calibration_model : {"powerlaw", "fgn-fbm"}
+        The calibration model of the exponents (:mod:`tfhrv.estimators.calibrate`).
     """
     from tfhrv.stationarity import CATEGORIES
 
     q = cleaned.quality
     nn, tt = cleaned.nn_ms, cleaned.nn_time_s
     fits, _ = calibrated_fits(RECORD_PRESETS, nn, beat_time_s=tt, order=order,
-                              vanishing_moments=vanishing_moments)
+                              vanishing_moments=vanishing_moments,
+                              calibration_model=calibration_model)
     cats = np.asarray(long_categories)
     valid = cats != CATEGORIES.index("too-short")
     nonstat = (float(np.mean(cats[valid] != CATEGORIES.index("stationary")))

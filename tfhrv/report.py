@@ -125,6 +125,8 @@ _REFERENCES = (
     "Timmer J, König M. On generating power law noise. Astron Astrophys 1995;300:707–710.",
     "Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95–101. "
     "doi:10.1093/biomet/74.1.95",
+    "Eke A, Herman P, Bassingthwaighte JB, et al. Physiological time series: distinguishing "
+    "fractal noises from motions. Pflugers Arch 2000;439:403–415. doi:10.1007/s004249900135",
     "Said SE, Dickey DA. Testing for unit roots in autoregressive-moving average models of "
     "unknown order. Biometrika 1984;71:599–607. doi:10.1093/biomet/71.3.599",
     "Kwiatkowski D, Phillips PCB, Schmidt P, Shin Y. Testing the null hypothesis of "
@@ -167,9 +169,7 @@ _METHODS = (
     "vanishing moments ignore polynomial trends of degree < 3 (Abry & Veitch 1998).",
     "DFA: fluctuation of the integrated, box-wise detrended series; α1 over 4–16 beats, α2 "
     "over 16–64 beats, long-range α above (Peng et al. 1995; Kantelhardt et al. 2001).",
-    "Calibrated intervals: bias and 95 % quantiles from simulations of fractional Gaussian "
-    "noise (alpha < 1; Davies & Harte 1987) and 1/f^β noise (alpha > 1; Timmer & König "
-    "1995) at the estimated exponent and length.",
+    "{calibration}",
     "Stationarity: ADF (Said & Dickey 1984), KPSS (Kwiatkowski et al. 1992) and mean/SD "
     "drift against phase-randomised surrogates (Theiler et al. 1992; Schreiber & Schmitz "
     "1996); the category chooses the primary estimator (decision table).",
@@ -506,6 +506,27 @@ def _provenance(tree: xr.DataTree) -> str:
 # ------------------------------------------------------------------ public API
 
 
+#: the calibration sentence of the methods list, per calibration model
+_CALIBRATION_TEXT = {
+    "powerlaw": "Calibrated intervals (model 'powerlaw'): bias and 95 % Neyman intervals from "
+    "simulations of fractional Gaussian noise (alpha < 1; Davies & Harte 1987) and 1/f^β "
+    "noise (alpha > 1; Timmer & König 1995) on a grid of exponents and lengths; heart-period "
+    "fluctuations are modelled as 1/f-type noise across alpha = 1 (Kobayashi & Musha 1982).",
+    "fgn-fbm": "Calibrated intervals (model 'fgn-fbm'): bias and 95 % Neyman intervals from "
+    "simulations of fractional Gaussian noise (alpha < 1) and fractional Brownian motion "
+    "(alpha > 1; Davies & Harte 1987), conditional on the noise/motion class read from DFA "
+    "at the longest scales (Eke et al. 2000).",
+}
+
+
+def _calibration_model(tree: xr.DataTree) -> str:
+    params = _json(tree.attrs.get("parameters", ""), {})
+    scan_params = params.get("scan", {}) if isinstance(params, dict) else {}
+    model = scan_params.get("calibration_model", "powerlaw") if isinstance(
+        scan_params, dict) else None
+    return model if model in _CALIBRATION_TEXT else "powerlaw"
+
+
 def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = None,
                  dpi: float = 110.0) -> str:
     """The HTML report of one scan, as a string.
@@ -561,7 +582,9 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
     )}
     created = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
     refs = "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES)
-    methods = "".join(f"<li>{_e(m)}</li>" for m in _METHODS)
+    calibration = _CALIBRATION_TEXT[_calibration_model(tree)]
+    methods = "".join(f"<li>{_e(m.replace('{calibration}', calibration))}</li>"
+                      for m in _METHODS)
     nav = "".join(f"<li><a href=\"#{s}\">{_e(s.replace('-', ' '))}</a></li>"
                   for s in SECTIONS[1:-1])
     parts = [

@@ -47,7 +47,9 @@ class ScanOptions:
     ``record_band_hz`` is the classical band whose whole-record FFT slope is judged;
     ``n_surrogates`` the surrogates per window of the drift test; ``seed`` the base seed of
     the surrogates (window w uses seed + w); ``*_psd_fs_hz`` the resampling rates of the
-    stored spectra (4 Hz for 5-min windows, common practice; 1 Hz for long windows).
+    stored spectra (4 Hz for 5-min windows, common practice; 1 Hz for long windows);
+    ``calibration_model`` the model of the calibrated intervals ("powerlaw" or "fgn-fbm",
+    :mod:`tfhrv.estimators.calibrate`).
     """
 
     short: TierSpec = SHORT
@@ -59,6 +61,7 @@ class ScanOptions:
     seed: int = 20100819
     short_psd_fs_hz: float = 4.0
     long_psd_fs_hz: float = 1.0
+    calibration_model: str = "powerlaw"
 
     def as_dict(self) -> dict:
         """Plain dictionary (JSON-friendly)."""
@@ -88,7 +91,8 @@ def _window_fits(nn: np.ndarray, t: np.ndarray, tier: TierSpec, opt: ScanOptions
                  dfa_scales: np.ndarray | None
                  ) -> tuple[dict[str, ScalingFit | None], Fluctuation | None]:
     return calibrated_fits(_TIER_PRESETS[tier.scale], nn, beat_time_s=t, order=opt.dfa_order,
-                           vanishing_moments=opt.vanishing_moments, dfa_scales=dfa_scales)
+                           vanishing_moments=opt.vanishing_moments, dfa_scales=dfa_scales,
+                           calibration_model=opt.calibration_model)
 
 
 def _at_scales(fl: Fluctuation, scales: np.ndarray) -> Fluctuation:
@@ -350,7 +354,8 @@ def _record_dataset(cleaned: CleanResult, long_categories: np.ndarray, opt: Scan
     q = cleaned.quality
     assessment = assess_record(cleaned, long_categories=long_categories,
                                band_hz=opt.record_band_hz, order=opt.dfa_order,
-                               vanishing_moments=opt.vanishing_moments)
+                               vanishing_moments=opt.vanishing_moments,
+                               calibration_model=opt.calibration_model)
     fits, verdict = assessment.fits, assessment.verdict
 
     def val(name):

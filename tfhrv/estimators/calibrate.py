@@ -2,15 +2,26 @@
 
 Regression standard errors on log-log points are too optimistic, because the points are
 correlated.  For every preset (:mod:`tfhrv.estimators.presets`) the script
-``scripts/make_calibration.py`` simulates exact fGn (Davies-Harte) for alpha < 1 and
-Timmer-Koenig 1/f^beta noise (beta = 2 alpha - 1) for alpha > 1 on a grid of true
-exponents and series lengths, runs the preset, and stores the mean, the SD and the 2.5 %
-and 97.5 % quantiles of the estimates.  At run time, for a series of length n the curves
-are interpolated in log n and inverted:
+``scripts/make_calibration.py`` simulates processes of known exponent on a grid of true
+exponents and series lengths, runs the preset, and stores per cell the mean, the SD and
+the 2.5 % and 97.5 % quantiles of the estimates.  Two calibration models:
 
-- bias-corrected exponent: the true value whose mean estimate equals the observed one;
-- 95 % interval: the Neyman confidence belt, i.e. the true values whose 97.5 % and
-  2.5 % quantiles equal the observed estimate;
+- ``"powerlaw"`` (default): exact fGn (Davies-Harte) for alpha < 1 and Timmer-Koenig
+  1/f^beta noise (beta = 2 alpha - 1) for alpha > 1.  Continuous across alpha = 1, the
+  model of heart-period fluctuations as 1/f-type noise (Kobayashi & Musha 1982).
+- ``"fgn-fbm"``: the dichotomous model of Eke et al. (2000), fGn for alpha < 1 and fBm
+  (H = alpha - 1) for alpha > 1, both Davies-Harte.  At the scales of a few beats fBm
+  with small H looks like fGn (its mean alpha1 falls back below 1 as H -> 0), so the
+  estimate alone cannot tell the branches apart; the class statistic
+  (:func:`class_statistic`, DFA-1 at the longest scales) does, and the tables hold one
+  belt per class ("noise": class statistic <= 1, "motion": > 1), conditional on it.
+
+At run time, for a series of length n the curves are interpolated in log n and used as:
+
+- bias-corrected exponent: the true value whose mean estimate equals the observed one
+  (within the branch of the class under "fgn-fbm");
+- 95 % interval: the Neyman confidence set, the true values whose central 95 % band of
+  estimates contains the observed one (its hull when it is not one interval);
 - calibrated SE: the SD of the estimates at the corrected value, divided by the local
   slope of the mean curve.
 
@@ -21,6 +32,11 @@ of probability. Phil Trans R Soc A 1937;236:333-380.
 Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95-101.
 Efron B, Tibshirani RJ. An Introduction to the Bootstrap. Chapman & Hall 1993, ch. 6
 (parametric bootstrap).
+Timmer J, Koenig M. On generating power law noise. Astron Astrophys 1995;300:707-710.
+Eke A, Herman P, Bassingthwaighte JB, et al. Physiological time series: distinguishing
+fractal noises from motions. Pflugers Arch 2000;439:403-415.
+Kobayashi M, Musha T. 1/f fluctuation of heartbeat period. IEEE Trans Biomed Eng
+1982;29:456-457.
 """
 
 from __future__ import annotations
@@ -31,98 +47,268 @@ from importlib import resources
 
 import numpy as np
 
+from tfhrv._validation import as_1d_float
+from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit
+from tfhrv.estimators.dfa import dfa
 
-__all__ = ["CalibrationTable", "calibrate", "load_table"]
+__all__ = ["CLASS_THRESHOLD", "MODELS", "CalibrationTable", "Curves", "calibrate",
+           "class_range", "class_statistic", "load_table", "table_name", "table_sha256"]
 
 _TABLE_FILE = "calibration.npz"
+
+#: Calibration models: "powerlaw" (fGn below alpha 1, 1/f^beta noise above, one belt) and
+#: "fgn-fbm" (fGn below, fBm above, one belt per class of the class statistic).
+MODELS: tuple[str, ...] = ("powerlaw", "fgn-fbm")
+#: The class statistic (a DFA-1 alpha at the longest scales) above this is "motion".
+CLASS_THRESHOLD = 1.0
+
+
+def class_range(n_obs: int, /) -> tuple[int, int]:
+    """Box sizes (beats) of the class statistic for a series of ``n_obs`` beats.
+
+    The longest scales a DFA-1 fit can use: the alpha_long range (64 to min(N/4, 4096))
+    from 1024 beats, else 16 to N/4.  At long scales fGn and fBm follow their asymptotic
+    power laws, so alpha below or above 1 tells a noise from a motion (Eke et al. 2000).
+
+    Examples
+    --------
+    >>> class_range(512), class_range(86000)
+    ((16, 128), (64, 4096))
+    """
+    n = int(n_obs)
+    if n >= 1024:
+        return (64, min(n // 4, 4096))
+    return (16, n // 4)
+
+
+def class_statistic(nn_ms: np.ndarray, /) -> float:
+    """The fGn/fBm class statistic of a series: DFA-1 alpha over :func:`class_range`.
+
+    NaN when the series is too short (under 128 beats) or constant.
+
+    Examples
+    --------
+    >>> from tfhrv.synth import fgn
+    >>> x = fgn(4096, 0.5, rng=1)
+    >>> class_statistic(x) < CLASS_THRESHOLD < class_statistic(x.cumsum())
+    True
+    """
+    x = as_1d_float(nn_ms, "nn_ms")
+    if x.size < 128:
+        return float("nan")
+    try:
+        return float(dfa(x, fit_range=class_range(x.size), order=1).exponent)
+    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+        return float("nan")
+
+
+@dataclasses.dataclass(frozen=True, slots=True)
+class Curves:
+    """A table's curves over ``truth`` at one length and class: the share of replicates
+    in the class, and the mean, SD and 2.5 / 97.5 % quantiles of their estimates."""
+
+    share: np.ndarray
+    mean: np.ndarray
+    sd: np.ndarray
+    q_low: np.ndarray
+    q_high: np.ndarray
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
 class CalibrationTable:
-    """Monte-Carlo summary for one preset.
+    """Monte-Carlo summary for one preset under one calibration model.
 
-    ``truth`` (T,) true exponents in the preset's convention; ``lengths`` (L,) series
-    lengths; ``mean``, ``sd``, ``q_low``, ``q_high`` (T, L) of the estimates;
-    ``n_rep`` replicates per cell.
+    ``truth`` (T,) true exponents in the preset's convention (noise branch below 1,
+    motion branch above); ``lengths`` (L,) series lengths; ``classes`` (K,) the class
+    names ("any" = all replicates; "noise"/"motion" = class statistic <= / > 1);
+    ``share``, ``mean``, ``sd``, ``q_low``, ``q_high`` (K, T, L); ``n_rep`` replicates
+    per cell (half of it at the longest length).
     """
 
     preset: str
+    model: str
     truth: np.ndarray
     lengths: np.ndarray
+    classes: tuple[str, ...]
+    share: np.ndarray
     mean: np.ndarray
     sd: np.ndarray
     q_low: np.ndarray
     q_high: np.ndarray
     n_rep: int
 
-    def curves(self, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """Mean, SD and quantile curves over ``truth`` at length ``n``.
+    def curves(self, n: int, /, *, cls: str = "any") -> Curves:
+        """The curves over ``truth`` at length ``n`` for class ``cls``.
 
         Linear interpolation in log n between the two nearest tabulated lengths whose
         column holds values, clipped to the tabulated range.  A length whose whole column
         is NaN (the preset cannot run at that length) is left out.
         """
-        ok = np.isfinite(self.mean).any(axis=0)
+        if cls not in self.classes:
+            raise ValueError(f"cls must be one of {self.classes!r}, got {cls!r}")
+        k = self.classes.index(cls)
+        arrays = [a[k].astype(np.float64) for a in
+                  (self.share, self.mean, self.sd, self.q_low, self.q_high)]
+        ok = np.isfinite(self.mean).any(axis=(0, 1))
         lengths = self.lengths[ok].astype(float)
-        cols = [a[:, ok] for a in (self.mean, self.sd, self.q_low, self.q_high)]
+        cols = [a[:, ok] for a in arrays]
         if lengths.size == 0:
-            nan = np.full(self.truth.shape, np.nan)
-            return nan, nan, nan, nan
+            return Curves(*(np.full(self.truth.shape, np.nan) for _ in cols))
         if lengths.size == 1:
-            return tuple(c[:, 0] for c in cols)
+            return Curves(*(c[:, 0] for c in cols))
         logl = np.log(lengths)
         x = float(np.clip(np.log(max(n, 1)), logl[0], logl[-1]))
         j = int(np.clip(np.searchsorted(logl, x, side="right") - 1, 0, logl.size - 2))
         w = (x - logl[j]) / (logl[j + 1] - logl[j])
         if w <= 0.0:
-            return tuple(c[:, j] for c in cols)
+            return Curves(*(c[:, j] for c in cols))
         if w >= 1.0:
-            return tuple(c[:, j + 1] for c in cols)
-        return tuple((1 - w) * c[:, j] + w * c[:, j + 1] for c in cols)
+            return Curves(*(c[:, j + 1] for c in cols))
+        return Curves(*((1 - w) * c[:, j] + w * c[:, j + 1] for c in cols))
 
 
 @functools.cache
-def _tables() -> dict[str, CalibrationTable]:
+def table_sha256() -> str:
+    """SHA-256 (hex) of the shipped calibration table file (provenance, cohort resume)."""
+    import hashlib
+
     ref = resources.files("tfhrv").joinpath("data", _TABLE_FILE)
-    out: dict[str, CalibrationTable] = {}
+    return hashlib.sha256(ref.read_bytes()).hexdigest()
+
+
+@functools.cache
+def _tables() -> dict[tuple[str, str], CalibrationTable]:
+    ref = resources.files("tfhrv").joinpath("data", _TABLE_FILE)
+    out: dict[tuple[str, str], CalibrationTable] = {}
     with resources.as_file(ref) as path, np.load(path) as z:
         for name in [str(s) for s in z["presets"]]:
-            out[name] = CalibrationTable(
-                preset=name, truth=z[f"{name}__truth"], lengths=z[f"{name}__lengths"],
-                mean=z[f"{name}__mean"], sd=z[f"{name}__sd"], q_low=z[f"{name}__q_low"],
-                q_high=z[f"{name}__q_high"], n_rep=int(z[f"{name}__n_rep"]),
-            )
+            for model in [str(m) for m in z["models"]]:
+                pre = f"{name}__{model}__"
+                out[(name, model)] = CalibrationTable(
+                    preset=name, model=model, truth=z[pre + "truth"],
+                    lengths=z[pre + "lengths"],
+                    classes=tuple(str(c) for c in z[pre + "classes"]),
+                    share=z[pre + "share"], mean=z[pre + "mean"], sd=z[pre + "sd"],
+                    q_low=z[pre + "q_low"], q_high=z[pre + "q_high"],
+                    n_rep=int(z[pre + "n_rep"]),
+                )
     return out
 
 
-def load_table(preset: str, /) -> CalibrationTable:
-    """The shipped calibration table of a preset."""
+def load_table(preset: str, /, *, model: str = "powerlaw") -> CalibrationTable:
+    """The shipped calibration table of a preset under a calibration model.
+
+    ``preset`` is a preset name, or for DFA orders above 1 the name with ``.q2`` / ``.q3``
+    appended (:func:`table_name`).
+    """
+    if model not in MODELS:
+        raise ValueError(f"model must be one of {MODELS!r}, got {model!r}")
     tables = _tables()
-    if preset not in tables:
-        raise ValueError(f"preset must be one of {tuple(tables)!r}, got {preset!r}")
-    return tables[preset]
+    names = tuple(dict.fromkeys(p for p, _ in tables))
+    if preset not in names:
+        raise ValueError(f"preset must be one of {names!r}, got {preset!r}")
+    return tables[(preset, model)]
 
 
-def _invert(curve: np.ndarray, truth: np.ndarray, value: float) -> float:
-    """The true value whose (monotone) curve value equals ``value``; NaN outside."""
-    if value < curve[0] or value > curve[-1]:
+#: the options the tables were simulated with; other values have no table
+_TABLE_VANISHING_MOMENTS = 3
+
+
+def table_name(estimator: str, fit: ScalingFit, /) -> str | None:
+    """Name of the table that matches a fit's options, or None if none was simulated.
+
+    DFA presets: the preset name for DFA-1, ``<preset>.q<order>`` for higher orders;
+    wavelet presets: only 3 vanishing moments are tabulated.
+    """
+    names = {p for p, _ in _tables()}
+    if estimator.startswith("alpha"):
+        order = int(fit.options.get("order", 1))
+        name = estimator if order == 1 else f"{estimator}.q{order}"
+    elif "wavelet" in estimator:
+        vm = int(fit.options.get("vanishing_moments", _TABLE_VANISHING_MOMENTS))
+        name = estimator if vm == _TABLE_VANISHING_MOMENTS else None
+    else:
+        name = estimator
+    return name if name in names else None
+
+
+def _point(truth: np.ndarray, mean: np.ndarray, value: float) -> float:
+    """The true value whose mean curve equals ``value``; NaN outside the curve's range.
+
+    The curve is inverted between its lowest and its highest point (where a curve folds
+    back at an end of the grid, as the leaky periodogram's does, the folded part cannot
+    be inverted), made non-decreasing there against Monte-Carlo wiggles.
+    """
+    ok = np.isfinite(mean)
+    t, m = truth[ok], mean[ok]
+    if t.size >= 2:
+        i, j = int(np.argmin(m)), int(np.argmax(m))
+        if j > i:
+            t, m = t[i: j + 1], m[i: j + 1]
+    m = np.maximum.accumulate(m)
+    if t.size < 2 or value < m[0] or value > m[-1]:
         return float("nan")
-    return float(np.interp(value, curve, truth))
+    return float(np.interp(value, m, t))
+
+
+#: sub-steps per grid interval when the confidence set is searched
+_FINE = 40
+
+
+def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
+                    value: float) -> tuple[float, float]:
+    """Hull of the true values whose band [q_low, q_high] contains ``value``.
+
+    An end at the first or last point of the table's grid is NaN (the set may go on
+    beyond the tabulated range); no such value at all gives (NaN, NaN).  Ends between
+    grid points are found by linear interpolation of the distance to the band edge.
+    """
+    ok = np.isfinite(q_low) & np.isfinite(q_high)
+    t, lo, hi = truth[ok], q_low[ok], q_high[ok]
+    if t.size < 2:
+        return float("nan"), float("nan")
+    u = np.arange(_FINE) / _FINE
+    tt = np.append((t[:-1, None] + np.diff(t)[:, None] * u).ravel(), t[-1])
+    # margin: >= 0 inside the band, the distance to the nearer edge (negative) outside
+    g = np.minimum(value - np.interp(tt, t, lo), np.interp(tt, t, hi) - value)
+    inside = np.flatnonzero(g >= 0)
+    if inside.size == 0:
+        return float("nan"), float("nan")
+    i, j = int(inside[0]), int(inside[-1])
+
+    def cross(a: int, b: int) -> float:  # g[a] < 0 <= g[b] or the reverse
+        return float(tt[a] + (tt[b] - tt[a]) * g[a] / (g[a] - g[b]))
+
+    lower = float("nan") if tt[i] <= truth[0] else (cross(i - 1, i) if i > 0 else float(tt[i]))
+    upper = float("nan") if tt[j] >= truth[-1] else (
+        cross(j + 1, j) if j < tt.size - 1 else float(tt[j]))
+    return lower, upper
 
 
 @functools.lru_cache(maxsize=4096)
-def _monotone_curves(estimator: str, n: int) -> tuple[np.ndarray, ...]:
-    """Curves at length n made monotone (the estimators are increasing in truth), and the
-    local slope of the mean curve; cached, since the windows of a tier share lengths."""
-    table = load_table(estimator)
-    mean, sd, q_low, q_high = table.curves(n)
-    mono = [np.maximum.accumulate(c) for c in (mean, q_low, q_high)]
-    slope = np.gradient(mono[0], table.truth)
-    return (*mono, sd, slope)
+def _class_curves(estimator: str, model: str, cls: str, n: int
+                  ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray]:
+    """Truth, curves, the branch mask of the point estimate and the local slope of the
+    mean curve, cached (the windows of a tier share lengths)."""
+    table = load_table(estimator, model=model)
+    c = table.curves(n, cls=cls)
+    if cls == "noise":
+        branch = table.truth < 1.0
+    elif cls == "motion":
+        branch = table.truth > 1.0
+    else:
+        branch = np.ones(table.truth.size, dtype=bool)
+    mono = np.where(branch, c.mean, np.nan)
+    ok = np.isfinite(mono)
+    slope = np.full(table.truth.size, np.nan)
+    if ok.sum() >= 2:
+        slope[ok] = np.gradient(np.maximum.accumulate(mono[ok]), table.truth[ok])
+    return table.truth, c, branch, slope
 
 
-def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> ScalingFit:
+def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
+              model: str = "powerlaw", class_stat: float | None = None) -> ScalingFit:
     """Replace a fit's exponent, SE and interval by their calibrated versions.
 
     Parameters
@@ -134,14 +320,22 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> Sc
     n : int, optional
         Series length in beats, the unit of the tables; default ``fit.n_obs`` (which
         counts resampled samples, not beats, for the resampled spectral preset).
+    model : {"powerlaw", "fgn-fbm"}, default "powerlaw"
+        The calibration model (module docstring).
+    class_stat : float, optional
+        :func:`class_statistic` of the same series; used by ``"fgn-fbm"`` to choose the
+        class belt.  Missing or NaN: the belt over all replicates is used.
 
     Returns
     -------
     ScalingFit
         A copy with ``exponent`` bias-corrected, ``se`` and ``ci`` calibrated,
-        ``raw_exponent`` the uncorrected value and ``calibrated=True``.  When the raw value
-        lies outside the tabulated range the interval end that cannot be inverted is NaN
-        and the exponent is left uncorrected.
+        ``raw_exponent`` the uncorrected value and ``calibrated=True``; ``options`` record
+        the table, the model and the class used.  When the raw value lies outside the
+        tabulated range the interval end that cannot be found is NaN and the exponent is
+        left uncorrected.  When no table was simulated for the fit's options (wavelet
+        vanishing moments other than 3, :func:`table_name`) the fit is returned
+        uncorrected with ``calibrated=False`` and a NaN interval.
 
     Examples
     --------
@@ -152,20 +346,34 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None) -> Sc
     >>> cal.calibrated, bool(cal.ci[0] < 0.8 < cal.ci[1])
     (True, True)
     """
-    table = load_table(estimator)
-    mean, q_low, q_high, sd, slope = _monotone_curves(estimator,
-                                                      int(fit.n_obs if n is None else n))
+    if model not in MODELS:
+        raise ValueError(f"model must be one of {MODELS!r}, got {model!r}")
+    name = table_name(estimator, fit)
+    if name is None:
+        # no simulation for these options: an honest "unknown" interval, not a table
+        # built for other options
+        return dataclasses.replace(
+            fit, ci=(float("nan"), float("nan")), calibrated=False,
+            options={**dict(fit.options), "calibration": "none (no table for these options)",
+                     "calibration_model": model})
+    cls = "any"
+    if model == "fgn-fbm" and class_stat is not None and np.isfinite(class_stat):
+        cls = "motion" if float(class_stat) > CLASS_THRESHOLD else "noise"
+    truth, c, branch, slope = _class_curves(name, model, cls,
+                                            int(fit.n_obs if n is None else n))
     raw = float(fit.exponent)
-    est = _invert(mean, table.truth, raw)
-    lo = _invert(q_high, table.truth, raw)
-    hi = _invert(q_low, table.truth, raw)
+    est = _point(truth, np.where(branch, c.mean, np.nan), raw)
+    lo, hi = _confidence_set(truth, c.q_low, c.q_high, raw)
     if not np.isfinite(est):
         est = raw
         se = float(fit.se)
     else:
-        local = max(float(np.interp(est, table.truth, slope)), 1e-3)
-        se = float(np.interp(est, table.truth, sd)) / local
+        local = max(float(np.interp(est, truth[np.isfinite(slope)],
+                                    slope[np.isfinite(slope)])), 1e-3)
+        ok = np.isfinite(c.sd) & branch
+        se = float(np.interp(est, truth[ok], c.sd[ok])) / local
     return dataclasses.replace(
         fit, exponent=est, se=se, ci=(lo, hi), raw_exponent=raw, calibrated=True,
-        options={**dict(fit.options), "calibration": estimator},
+        options={**dict(fit.options), "calibration": name, "calibration_model": model,
+                 "calibration_class": cls},
     )

@@ -34,8 +34,10 @@ def file_sha256(path: str | Path) -> str:
 
 
 def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
-    """Root attributes: version, input, parameters as JSON, creation time, caution."""
+    """Root attributes: version, input, parameters as JSON, the calibration table's
+    SHA-256, creation time, caution."""
     from tfhrv import __version__
+    from tfhrv.estimators.calibrate import table_sha256
 
     attrs = {
         "Conventions": "CF-1.10",
@@ -45,6 +47,7 @@ def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
         "source_sha256": "" if source is None or not Path(source).exists()
         else file_sha256(source),
         "parameters": json.dumps(parameters, sort_keys=True, default=str),
+        "calibration_table_sha256": table_sha256(),
         "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
         "caution": CAUTION,
         "history": history,
