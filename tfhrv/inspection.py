@@ -107,9 +107,10 @@ def _span(s: float) -> str:
 def _exp(fit, name: str) -> str:
     if fit is None:
         return f"{name} n/a"
-    lo, hi = fit.ci
-    ci = f"[{lo:.2f}, {hi:.2f}]" if np.isfinite(lo) and np.isfinite(hi) else "[interval n/a]"
-    return f"{name} {fit.exponent:.2f} {ci}"
+    from tfhrv.estimators.calibrate import interval_text
+
+    ci = interval_text(*fit.ci)
+    return f"{name} {fit.exponent:.2f} {'[interval n/a]' if ci == 'n/a' else ci}"
 
 
 def format_inspection(ins: Inspection, /) -> str:

@@ -26,6 +26,7 @@ import pandas as pd
 import xarray as xr
 
 from tfhrv._caution import CAUTION
+from tfhrv.estimators.calibrate import interval_text
 
 __all__ = ["SECTIONS", "build_report", "write_report"]
 
@@ -208,9 +209,7 @@ def _ci(ds: xr.Dataset | None, name: str, digits: int = 2) -> str:
     if ds is None or f"{name}_ci" not in ds:
         return "n/a"
     lo, hi = (float(v) for v in np.asarray(ds[f"{name}_ci"].values, float))
-    if not (np.isfinite(lo) and np.isfinite(hi)):
-        return "n/a"
-    return f"[{lo:.{digits}f}, {hi:.{digits}f}]"
+    return interval_text(lo, hi, digits=digits)
 
 
 def _json(text, default):

@@ -53,7 +53,8 @@ from tfhrv.estimators._fit import ScalingFit
 from tfhrv.estimators.dfa import dfa
 
 __all__ = ["CLASS_THRESHOLD", "MODELS", "CalibrationTable", "Curves", "calibrate",
-           "class_range", "class_statistic", "load_table", "table_name", "table_sha256"]
+           "class_range", "class_statistic", "interval_text", "load_table", "table_name",
+           "table_sha256"]
 
 _TABLE_FILE = "calibration.npz"
 
@@ -231,6 +232,24 @@ def table_name(estimator: str, fit: ScalingFit, /) -> str | None:
     else:
         name = estimator
     return name if name in names else None
+
+
+def interval_text(lo: float, hi: float, /, *, digits: int = 2) -> str:
+    """A calibrated interval as text: ``[lo, hi]``; an end that :func:`calibrate` left NaN
+    (the confidence set reaches past the tabulated range) reads ``open``; no interval at
+    all reads ``n/a``.
+
+    Examples
+    --------
+    >>> interval_text(1.05, float("nan")), interval_text(float("nan"), float("nan"))
+    ('[1.05, open]', 'n/a')
+    """
+    lo, hi = float(lo), float(hi)
+    if not (np.isfinite(lo) or np.isfinite(hi)):
+        return "n/a"
+    a = f"{lo:.{digits}f}" if np.isfinite(lo) else "open"
+    b = f"{hi:.{digits}f}" if np.isfinite(hi) else "open"
+    return f"[{a}, {b}]"
 
 
 def _point(truth: np.ndarray, mean: np.ndarray, value: float) -> float:
