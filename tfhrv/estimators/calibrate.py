@@ -216,13 +216,18 @@ def load_table(preset: str, /, *, model: str = "powerlaw") -> CalibrationTable:
 _TABLE_VANISHING_MOMENTS = 3
 
 
+@functools.cache
+def _table_names() -> frozenset[str]:
+    return frozenset(p for p, _ in _tables())
+
+
 def table_name(estimator: str, fit: ScalingFit, /) -> str | None:
     """Name of the table that matches a fit's options, or None if none was simulated.
 
     DFA presets: the preset name for DFA-1, ``<preset>.q<order>`` for higher orders;
     wavelet presets: only 3 vanishing moments are tabulated.
     """
-    names = {p for p, _ in _tables()}
+    names = _table_names()
     if estimator.startswith("alpha"):
         order = int(fit.options.get("order", 1))
         name = estimator if order == 1 else f"{estimator}.q{order}"
@@ -275,22 +280,26 @@ def _point(truth: np.ndarray, mean: np.ndarray, value: float) -> float:
 _FINE = 40
 
 
-def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
-                    value: float) -> tuple[float, float]:
-    """Hull of the true values whose band [q_low, q_high] contains ``value``.
-
-    An end at the first or last point of the table's grid is NaN (the set may go on
-    beyond the tabulated range); no such value at all gives (NaN, NaN).  Ends between
-    grid points are found by linear interpolation of the distance to the band edge.
-    """
+def _fine_belt(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The belt's finite part on the truth grid refined ``_FINE``-fold (linear)."""
     ok = np.isfinite(q_low) & np.isfinite(q_high)
     t, lo, hi = truth[ok], q_low[ok], q_high[ok]
     if t.size < 2:
-        return float("nan"), float("nan")
+        return np.empty(0), np.empty(0), np.empty(0)
     u = np.arange(_FINE) / _FINE
     tt = np.append((t[:-1, None] + np.diff(t)[:, None] * u).ravel(), t[-1])
+    return tt, np.interp(tt, t, lo), np.interp(tt, t, hi)
+
+
+def _hull(belt: tuple[np.ndarray, np.ndarray, np.ndarray], grid_ends: tuple[float, float],
+          value: float) -> tuple[float, float]:
+    """Hull of the fine-grid truths whose band contains ``value`` (:func:`_confidence_set`)."""
+    tt, lo, hi = belt
+    if tt.size == 0:
+        return float("nan"), float("nan")
     # margin: >= 0 inside the band, the distance to the nearer edge (negative) outside
-    g = np.minimum(value - np.interp(tt, t, lo), np.interp(tt, t, hi) - value)
+    g = np.minimum(value - lo, hi - value)
     inside = np.flatnonzero(g >= 0)
     if inside.size == 0:
         return float("nan"), float("nan")
@@ -299,17 +308,29 @@ def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
     def cross(a: int, b: int) -> float:  # g[a] < 0 <= g[b] or the reverse
         return float(tt[a] + (tt[b] - tt[a]) * g[a] / (g[a] - g[b]))
 
-    lower = float("nan") if tt[i] <= truth[0] else (cross(i - 1, i) if i > 0 else float(tt[i]))
-    upper = float("nan") if tt[j] >= truth[-1] else (
+    lower = float("nan") if tt[i] <= grid_ends[0] else (
+        cross(i - 1, i) if i > 0 else float(tt[i]))
+    upper = float("nan") if tt[j] >= grid_ends[1] else (
         cross(j + 1, j) if j < tt.size - 1 else float(tt[j]))
     return lower, upper
 
 
+def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
+                    value: float) -> tuple[float, float]:
+    """Hull of the true values whose band [q_low, q_high] contains ``value``.
+
+    An end at the first or last point of the table's grid is NaN (the set may go on
+    beyond the tabulated range); no such value at all gives (NaN, NaN).  Ends between
+    grid points are found by linear interpolation of the distance to the band edge.
+    """
+    return _hull(_fine_belt(truth, q_low, q_high), (truth[0], truth[-1]), value)
+
+
 @functools.lru_cache(maxsize=4096)
 def _class_curves(estimator: str, model: str, cls: str, n: int
-                  ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray]:
-    """Truth, curves, the branch mask of the point estimate and the local slope of the
-    mean curve, cached (the windows of a tier share lengths)."""
+                  ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray, tuple]:
+    """Truth, curves, the branch mask of the point estimate, the local slope of the
+    mean curve and the refined belt, cached (the windows of a tier share lengths)."""
     table = load_table(estimator, model=model)
     c = table.curves(n, cls=cls)
     if cls == "noise":
@@ -323,7 +344,7 @@ def _class_curves(estimator: str, model: str, cls: str, n: int
     slope = np.full(table.truth.size, np.nan)
     if ok.sum() >= 2:
         slope[ok] = np.gradient(np.maximum.accumulate(mono[ok]), table.truth[ok])
-    return table.truth, c, branch, slope
+    return table.truth, c, branch, slope, _fine_belt(table.truth, c.q_low, c.q_high)
 
 
 def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
@@ -378,11 +399,11 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
     cls = "any"
     if model == "fgn-fbm" and class_stat is not None and np.isfinite(class_stat):
         cls = "motion" if float(class_stat) > CLASS_THRESHOLD else "noise"
-    truth, c, branch, slope = _class_curves(name, model, cls,
-                                            int(fit.n_obs if n is None else n))
+    truth, c, branch, slope, belt = _class_curves(name, model, cls,
+                                                  int(fit.n_obs if n is None else n))
     raw = float(fit.exponent)
     est = _point(truth, np.where(branch, c.mean, np.nan), raw)
-    lo, hi = _confidence_set(truth, c.q_low, c.q_high, raw)
+    lo, hi = _hull(belt, (truth[0], truth[-1]), raw)
     if not np.isfinite(est):
         est = raw
         se = float(fit.se)
