@@ -333,6 +333,7 @@ def test_dfa_order_has_its_own_table_and_other_wavelets_none():
     cal2 = calibrate(fit2, estimator="alpha2")
     assert cal2.calibrated and cal2.options["calibration"] == "alpha2.q2"
     assert table_name("alpha2", estimate("alpha2", x)) == "alpha2"
+    assert table_name("alpha2", estimate("alpha2", x, order=3)) == "alpha2.q3"
     w4 = calibrate(estimate("beta_wavelet_long", x, vanishing_moments=4),
                    estimator="beta_wavelet_long")
     assert not w4.calibrated and all(np.isnan(w4.ci))

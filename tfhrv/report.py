@@ -96,8 +96,9 @@ _EXPONENTS = (
 _CONTEXT = (
     "Published values are conventional slopes of the fitted line: compare them with the "
     "'slope before calibration' column. The bias-corrected value is the exponent of the "
-    "fGn or 1/f^β process that would give this slope on average (see methods); for α1 it "
-    "can differ from the slope by about 0.05–0.1.",
+    "process of the calibration model (fGn below α = 1; 1/f^β noise or fBm above, see "
+    "methods) that would give this slope on average; for α1 it can differ from the slope "
+    "by about 0.05–0.1.",
     "DFA α1 of healthy adults is typically about 1.0–1.2 and lower in congestive heart "
     "failure (Peng et al. 1995).",
     "The 24-h power-law slope corresponds to β near 1 in healthy middle-aged adults and is "
