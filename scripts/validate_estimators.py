@@ -48,8 +48,9 @@ worker seeds ``np.random.seed`` before each of its draws; nothing else uses glob
 
 Run:  python scripts/validate_estimators.py [--quick] [--reps R] [--workers 2]
           [--out docs/validation_estimators.md]
-Takes about 10-20 minutes on two shared cores with R = 100 (most of it in the ``fbm``
-package's pure-Python Davies-Harte loop); --quick (R = 20) about a fifth of that.
+Takes about 40 minutes of one core per 100 replicates (most of it in the ``fbm`` package's
+pure-Python Davies-Harte loop and at 2^16 beats); docs/validation_estimators.md used
+R = 200; --quick (R = 20) takes a tenth of that.
 
 References
 ----------

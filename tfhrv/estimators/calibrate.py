@@ -138,6 +138,19 @@ class CalibrationTable:
     q_low: np.ndarray
     q_high: np.ndarray
     n_rep: int
+    _columns: tuple = dataclasses.field(init=False, repr=False, compare=False)
+    _log_lengths: np.ndarray = dataclasses.field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        for name in ("share", "mean", "sd", "q_low", "q_high"):  # stored as float32
+            object.__setattr__(self, name, np.asarray(getattr(self, name), dtype=np.float64))
+        ok = np.isfinite(self.mean).any(axis=(0, 1))
+        object.__setattr__(self, "_log_lengths", np.log(self.lengths.astype(float))[ok])
+        # per class, the five curves at the lengths that hold values: (T, L') each
+        object.__setattr__(self, "_columns", tuple(
+            tuple(a[k][:, ok] for a in (self.share, self.mean, self.sd, self.q_low,
+                                        self.q_high))
+            for k in range(len(self.classes))))
 
     def curves(self, n: int, /, *, cls: str = "any") -> Curves:
         """The curves over ``truth`` at length ``n`` for class ``cls``.
@@ -148,17 +161,12 @@ class CalibrationTable:
         """
         if cls not in self.classes:
             raise ValueError(f"cls must be one of {self.classes!r}, got {cls!r}")
-        k = self.classes.index(cls)
-        arrays = [a[k].astype(np.float64) for a in
-                  (self.share, self.mean, self.sd, self.q_low, self.q_high)]
-        ok = np.isfinite(self.mean).any(axis=(0, 1))
-        lengths = self.lengths[ok].astype(float)
-        cols = [a[:, ok] for a in arrays]
-        if lengths.size == 0:
+        cols = self._columns[self.classes.index(cls)]
+        logl = self._log_lengths
+        if logl.size == 0:
             return Curves(*(np.full(self.truth.shape, np.nan) for _ in cols))
-        if lengths.size == 1:
+        if logl.size == 1:
             return Curves(*(c[:, 0] for c in cols))
-        logl = np.log(lengths)
         x = float(np.clip(np.log(max(n, 1)), logl[0], logl[-1]))
         j = int(np.clip(np.searchsorted(logl, x, side="right") - 1, 0, logl.size - 2))
         w = (x - logl[j]) / (logl[j + 1] - logl[j])
@@ -276,61 +284,58 @@ def _point(truth: np.ndarray, mean: np.ndarray, value: float) -> float:
     return float(np.interp(value, m, t))
 
 
-#: sub-steps per grid interval when the confidence set is searched
-_FINE = 40
-
-
-def _fine_belt(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray
-               ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """The belt's finite part on the truth grid refined ``_FINE``-fold (linear)."""
+def _finite_belt(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The grid points where both band edges are known."""
     ok = np.isfinite(q_low) & np.isfinite(q_high)
-    t, lo, hi = truth[ok], q_low[ok], q_high[ok]
-    if t.size < 2:
-        return np.empty(0), np.empty(0), np.empty(0)
-    u = np.arange(_FINE) / _FINE
-    tt = np.append((t[:-1, None] + np.diff(t)[:, None] * u).ravel(), t[-1])
-    return tt, np.interp(tt, t, lo), np.interp(tt, t, hi)
+    return truth[ok], q_low[ok], q_high[ok]
 
 
 def _hull(belt: tuple[np.ndarray, np.ndarray, np.ndarray], grid_ends: tuple[float, float],
           value: float) -> tuple[float, float]:
-    """Hull of the fine-grid truths whose band contains ``value`` (:func:`_confidence_set`)."""
-    tt, lo, hi = belt
-    if tt.size == 0:
+    """Hull of the truths whose band contains ``value`` (see :func:`_confidence_set`).
+
+    The band edges are linear between grid points, so on each grid interval the truths
+    with q_low <= value <= q_high form one sub-interval, found exactly.
+    """
+    t, lo, hi = belt
+    if t.size < 2:
         return float("nan"), float("nan")
-    # margin: >= 0 inside the band, the distance to the nearer edge (negative) outside
-    g = np.minimum(value - lo, hi - value)
-    inside = np.flatnonzero(g >= 0)
+    s_from = np.zeros(t.size - 1)
+    s_to = np.ones(t.size - 1)
+    # q_low(s) <= value and -q_high(s) <= -value, each edge a + b s on s in [0, 1]
+    for a, b, v in ((lo[:-1], np.diff(lo), value), (-hi[:-1], -np.diff(hi), -value)):
+        root = np.divide(v - a, b, out=np.zeros_like(a), where=b != 0)
+        rising, falling = b > 0, b < 0
+        s_to[rising] = np.minimum(s_to[rising], root[rising])
+        s_from[falling] = np.maximum(s_from[falling], root[falling])
+        s_to[(b == 0) & (a > v)] = -1.0
+    inside = np.flatnonzero(s_from <= s_to)
     if inside.size == 0:
         return float("nan"), float("nan")
     i, j = int(inside[0]), int(inside[-1])
-
-    def cross(a: int, b: int) -> float:  # g[a] < 0 <= g[b] or the reverse
-        return float(tt[a] + (tt[b] - tt[a]) * g[a] / (g[a] - g[b]))
-
-    lower = float("nan") if tt[i] <= grid_ends[0] else (
-        cross(i - 1, i) if i > 0 else float(tt[i]))
-    upper = float("nan") if tt[j] >= grid_ends[1] else (
-        cross(j + 1, j) if j < tt.size - 1 else float(tt[j]))
-    return lower, upper
+    lower = float(t[i] + (t[i + 1] - t[i]) * s_from[i])
+    upper = float(t[j] + (t[j + 1] - t[j]) * s_to[j])
+    return (float("nan") if lower <= grid_ends[0] else lower,
+            float("nan") if upper >= grid_ends[1] else upper)
 
 
 def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
                     value: float) -> tuple[float, float]:
     """Hull of the true values whose band [q_low, q_high] contains ``value``.
 
-    An end at the first or last point of the table's grid is NaN (the set may go on
-    beyond the tabulated range); no such value at all gives (NaN, NaN).  Ends between
-    grid points are found by linear interpolation of the distance to the band edge.
+    The band edges are interpolated linearly between grid points.  An end at the first or
+    last point of the table's grid is NaN (the set may go on beyond the tabulated range);
+    no such value at all gives (NaN, NaN).
     """
-    return _hull(_fine_belt(truth, q_low, q_high), (truth[0], truth[-1]), value)
+    return _hull(_finite_belt(truth, q_low, q_high), (truth[0], truth[-1]), value)
 
 
 @functools.lru_cache(maxsize=4096)
 def _class_curves(estimator: str, model: str, cls: str, n: int
                   ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray, tuple]:
     """Truth, curves, the branch mask of the point estimate, the local slope of the
-    mean curve and the refined belt, cached (the windows of a tier share lengths)."""
+    mean curve and the belt's finite part, cached (the windows of a tier share lengths)."""
     table = load_table(estimator, model=model)
     c = table.curves(n, cls=cls)
     if cls == "noise":
@@ -344,7 +349,7 @@ def _class_curves(estimator: str, model: str, cls: str, n: int
     slope = np.full(table.truth.size, np.nan)
     if ok.sum() >= 2:
         slope[ok] = np.gradient(np.maximum.accumulate(mono[ok]), table.truth[ok])
-    return table.truth, c, branch, slope, _fine_belt(table.truth, c.q_low, c.q_high)
+    return table.truth, c, branch, slope, _finite_belt(table.truth, c.q_low, c.q_high)
 
 
 def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
