@@ -362,3 +362,23 @@ def test_dfa2_alpha1_calibrated_with_its_own_table(rng):
     tol = 4.0 * float(est.std(ddof=1)) * np.sqrt(1.0 / R + 1.0 / load_table("alpha1.q2").n_rep)
     assert abs(est.mean() - 0.5) <= tol, est.mean()
     assert int(_covers(np.array(lo), np.array(hi), 0.5).sum()) >= 7
+
+
+def test_confidence_set_matches_a_brute_force_search(rng):
+    # The exact per-interval solution against a direct search on a 20001-point grid of
+    # the same piecewise-linear belt, for random (also non-monotone) belts and values.
+    fine = np.linspace(0.0, 5.0, 20001)
+    for _ in range(200):
+        truth = np.linspace(0.0, 5.0, 6)
+        mean = np.cumsum(rng.normal(0.3, 0.5, truth.size))
+        half = rng.uniform(0.05, 0.6, truth.size)
+        lo, hi = mean - half, mean + half
+        value = float(rng.uniform(mean.min() - 0.5, mean.max() + 0.5))
+        inside = (np.interp(fine, truth, lo) <= value) & (value <= np.interp(fine, truth, hi))
+        got = _confidence_set(truth, lo, hi, value)
+        if not inside.any():
+            assert all(np.isnan(got))
+            continue
+        a, b = fine[inside][0], fine[inside][-1]
+        want = (np.nan if a <= 0 else a, np.nan if b >= 5 else b)
+        np.testing.assert_allclose(got, want, atol=3e-4)

@@ -232,7 +232,11 @@ class ScalingFit:
 
     def __post_init__(self) -> None:
         for name in ("x", "y", "weights", "used"):
-            object.__setattr__(self, name, readonly(np.array(getattr(self, name))))
+            v = getattr(self, name)
+            # an own read-only array (from another fit, e.g. by dataclasses.replace) is
+            # already immutable; anything else is copied and frozen
+            if not (isinstance(v, np.ndarray) and not v.flags.writeable and v.base is None):
+                object.__setattr__(self, name, readonly(np.array(v)))
         object.__setattr__(self, "options", MappingProxyType(dict(self.options)))
         if not np.isfinite(self.raw_exponent):
             object.__setattr__(self, "raw_exponent", float(self.exponent))

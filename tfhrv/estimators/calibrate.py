@@ -296,26 +296,36 @@ def _hull(belt: tuple[np.ndarray, np.ndarray, np.ndarray], grid_ends: tuple[floa
     """Hull of the truths whose band contains ``value`` (see :func:`_confidence_set`).
 
     The band edges are linear between grid points, so on each grid interval the truths
-    with q_low <= value <= q_high form one sub-interval, found exactly.
+    with q_low <= value <= q_high form one sub-interval, found exactly; only the first and
+    the last interval that hold such truths are needed.
     """
     t, lo, hi = belt
     if t.size < 2:
         return float("nan"), float("nan")
-    s_from = np.zeros(t.size - 1)
-    s_to = np.ones(t.size - 1)
-    # q_low(s) <= value and -q_high(s) <= -value, each edge a + b s on s in [0, 1]
-    for a, b, v in ((lo[:-1], np.diff(lo), value), (-hi[:-1], -np.diff(hi), -value)):
-        root = np.divide(v - a, b, out=np.zeros_like(a), where=b != 0)
-        rising, falling = b > 0, b < 0
-        s_to[rising] = np.minimum(s_to[rising], root[rising])
-        s_from[falling] = np.maximum(s_from[falling], root[falling])
-        s_to[(b == 0) & (a > v)] = -1.0
-    inside = np.flatnonzero(s_from <= s_to)
-    if inside.size == 0:
+    v = float(value)
+    candidates = np.flatnonzero((np.minimum(lo[:-1], lo[1:]) <= v)
+                                & (np.maximum(hi[:-1], hi[1:]) >= v)).tolist()
+
+    def part(k: int) -> tuple[float, float] | None:
+        """[s0, s1] in [0, 1] of interval k where lo <= v <= hi, or None."""
+        s0, s1 = 0.0, 1.0
+        for a, b in ((lo[k] - v, lo[k + 1] - lo[k]), (v - hi[k], hi[k] - hi[k + 1])):
+            # need a + b s <= 0
+            if b > 0:
+                s1 = min(s1, -a / b)
+            elif b < 0:
+                s0 = max(s0, -a / b)
+            elif a > 0:
+                return None
+        return (s0, s1) if s0 <= s1 else None
+
+    first = next(((k, p) for k in candidates if (p := part(k)) is not None), None)
+    if first is None:
         return float("nan"), float("nan")
-    i, j = int(inside[0]), int(inside[-1])
-    lower = float(t[i] + (t[i + 1] - t[i]) * s_from[i])
-    upper = float(t[j] + (t[j + 1] - t[j]) * s_to[j])
+    last = next((k, p) for k in reversed(candidates) if (p := part(k)) is not None)
+    (i, (s0, _)), (j, (_, s1)) = first, last
+    lower = float(t[i] + (t[i + 1] - t[i]) * s0)
+    upper = float(t[j] + (t[j + 1] - t[j]) * s1)
     return (float("nan") if lower <= grid_ends[0] else lower,
             float("nan") if upper >= grid_ends[1] else upper)
 
