@@ -120,7 +120,8 @@ def truth(preset: str, process: str, hurst: float) -> float:
 
 def _valid(preset: str, n: int) -> bool:
     """A preset is validated at a length inside its calibration table's range."""
-    lengths = load_table(preset).lengths[np.isfinite(load_table(preset).mean).any(axis=(0, 1))]
+    table = load_table(preset)
+    lengths = table.lengths[np.isfinite(table.mean).any(axis=(0, 1))]
     return bool(lengths.min() <= n <= lengths.max())
 
 

@@ -51,6 +51,7 @@ from tfhrv._validation import as_1d_float
 from tfhrv.errors import InsufficientDataError
 from tfhrv.estimators._fit import ScalingFit
 from tfhrv.estimators.dfa import dfa
+from tfhrv.estimators.presets import DFA_PRESETS
 
 __all__ = ["CLASS_THRESHOLD", "MODELS", "CalibrationTable", "Curves", "calibrate",
            "class_range", "class_statistic", "interval_text", "load_table", "table_name",
@@ -213,11 +214,10 @@ def load_table(preset: str, /, *, model: str = "powerlaw") -> CalibrationTable:
     """
     if model not in MODELS:
         raise ValueError(f"model must be one of {MODELS!r}, got {model!r}")
-    tables = _tables()
-    names = tuple(dict.fromkeys(p for p, _ in tables))
-    if preset not in names:
+    if preset not in _table_names():
+        names = tuple(dict.fromkeys(p for p, _ in _tables()))
         raise ValueError(f"preset must be one of {names!r}, got {preset!r}")
-    return tables[(preset, model)]
+    return _tables()[(preset, model)]
 
 
 #: the options the tables were simulated with; other values have no table
@@ -236,10 +236,10 @@ def table_name(estimator: str, fit: ScalingFit, /) -> str | None:
     wavelet presets: only 3 vanishing moments are tabulated.
     """
     names = _table_names()
-    if estimator.startswith("alpha"):
+    if estimator in DFA_PRESETS:
         order = int(fit.options.get("order", 1))
         name = estimator if order == 1 else f"{estimator}.q{order}"
-    elif "wavelet" in estimator:
+    elif fit.method == "wavelet":
         vm = int(fit.options.get("vanishing_moments", _TABLE_VANISHING_MOMENTS))
         name = estimator if vm == _TABLE_VANISHING_MOMENTS else None
     else:
@@ -284,22 +284,18 @@ def _point(truth: np.ndarray, mean: np.ndarray, value: float) -> float:
     return float(np.interp(value, m, t))
 
 
-def _finite_belt(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray
-                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """The grid points where both band edges are known."""
-    ok = np.isfinite(q_low) & np.isfinite(q_high)
-    return truth[ok], q_low[ok], q_high[ok]
+def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
+                    value: float) -> tuple[float, float]:
+    """Hull of the true values whose band [q_low, q_high] contains ``value``.
 
-
-def _hull(belt: tuple[np.ndarray, np.ndarray, np.ndarray], grid_ends: tuple[float, float],
-          value: float) -> tuple[float, float]:
-    """Hull of the truths whose band contains ``value`` (see :func:`_confidence_set`).
-
-    The band edges are linear between grid points, so on each grid interval the truths
-    with q_low <= value <= q_high form one sub-interval, found exactly; only the first and
-    the last interval that hold such truths are needed.
+    The band edges are linear between the grid points where both are known, so on each
+    grid interval the truths with q_low <= value <= q_high form one sub-interval, found
+    exactly; only the first and the last interval that hold such truths are needed.  An
+    end at the first or last point of the table's grid is NaN (the set may go on beyond
+    the tabulated range); no such value at all gives (NaN, NaN).
     """
-    t, lo, hi = belt
+    ok = np.isfinite(q_low) & np.isfinite(q_high)
+    t, lo, hi = truth[ok], q_low[ok], q_high[ok]
     if t.size < 2:
         return float("nan"), float("nan")
     v = float(value)
@@ -326,26 +322,16 @@ def _hull(belt: tuple[np.ndarray, np.ndarray, np.ndarray], grid_ends: tuple[floa
     (i, (s0, _)), (j, (_, s1)) = first, last
     lower = float(t[i] + (t[i + 1] - t[i]) * s0)
     upper = float(t[j] + (t[j + 1] - t[j]) * s1)
-    return (float("nan") if lower <= grid_ends[0] else lower,
-            float("nan") if upper >= grid_ends[1] else upper)
-
-
-def _confidence_set(truth: np.ndarray, q_low: np.ndarray, q_high: np.ndarray,
-                    value: float) -> tuple[float, float]:
-    """Hull of the true values whose band [q_low, q_high] contains ``value``.
-
-    The band edges are interpolated linearly between grid points.  An end at the first or
-    last point of the table's grid is NaN (the set may go on beyond the tabulated range);
-    no such value at all gives (NaN, NaN).
-    """
-    return _hull(_finite_belt(truth, q_low, q_high), (truth[0], truth[-1]), value)
+    return (float("nan") if lower <= truth[0] else lower,
+            float("nan") if upper >= truth[-1] else upper)
 
 
 @functools.lru_cache(maxsize=4096)
 def _class_curves(estimator: str, model: str, cls: str, n: int
-                  ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray, tuple]:
-    """Truth, curves, the branch mask of the point estimate, the local slope of the
-    mean curve and the belt's finite part, cached (the windows of a tier share lengths)."""
+                  ) -> tuple[np.ndarray, Curves, np.ndarray, np.ndarray, np.ndarray]:
+    """Truth, curves, the mean and SD curves on the branch of the point estimate (NaN
+    off it) and the local slope of that mean curve, cached (the windows of a tier share
+    lengths)."""
     table = load_table(estimator, model=model)
     c = table.curves(n, cls=cls)
     if cls == "noise":
@@ -354,12 +340,13 @@ def _class_curves(estimator: str, model: str, cls: str, n: int
         branch = table.truth > 1.0
     else:
         branch = np.ones(table.truth.size, dtype=bool)
-    mono = np.where(branch, c.mean, np.nan)
-    ok = np.isfinite(mono)
+    mean = np.where(branch, c.mean, np.nan)
+    sd = np.where(branch, c.sd, np.nan)
+    ok = np.isfinite(mean)
     slope = np.full(table.truth.size, np.nan)
     if ok.sum() >= 2:
-        slope[ok] = np.gradient(np.maximum.accumulate(mono[ok]), table.truth[ok])
-    return table.truth, c, branch, slope, _finite_belt(table.truth, c.q_low, c.q_high)
+        slope[ok] = np.gradient(np.maximum.accumulate(mean[ok]), table.truth[ok])
+    return table.truth, c, mean, sd, slope
 
 
 def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
@@ -414,19 +401,19 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
     cls = "any"
     if model == "fgn-fbm" and class_stat is not None and np.isfinite(class_stat):
         cls = "motion" if float(class_stat) > CLASS_THRESHOLD else "noise"
-    truth, c, branch, slope, belt = _class_curves(name, model, cls,
-                                                  int(fit.n_obs if n is None else n))
+    truth, c, mean, sd, slope = _class_curves(name, model, cls,
+                                              int(fit.n_obs if n is None else n))
     raw = float(fit.exponent)
-    est = _point(truth, np.where(branch, c.mean, np.nan), raw)
-    lo, hi = _hull(belt, (truth[0], truth[-1]), raw)
+    est = _point(truth, mean, raw)
+    lo, hi = _confidence_set(truth, c.q_low, c.q_high, raw)
     if not np.isfinite(est):
         est = raw
         se = float(fit.se)
     else:
         local = max(float(np.interp(est, truth[np.isfinite(slope)],
                                     slope[np.isfinite(slope)])), 1e-3)
-        ok = np.isfinite(c.sd) & branch
-        se = float(np.interp(est, truth[ok], c.sd[ok])) / local
+        ok = np.isfinite(sd)
+        se = float(np.interp(est, truth[ok], sd[ok])) / local
     return dataclasses.replace(
         fit, exponent=est, se=se, ci=(lo, hi), raw_exponent=raw, calibrated=True,
         options={**dict(fit.options), "calibration": name, "calibration_model": model,
