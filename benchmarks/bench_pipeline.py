@@ -20,13 +20,13 @@ from pathlib import Path
 
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-from tfhrv.clean import clean  # noqa: E402
-from tfhrv.inspection import inspect_record  # noqa: E402
+from tfhrv.analysis.inspection import inspect_record  # noqa: E402
+from tfhrv.analysis.policy import assess_record  # noqa: E402
+from tfhrv.analysis.windows import LONG, SHORT, category_codes, tier_stationarity, tier_windows  # noqa: E402
+from tfhrv.dataset.build import scan  # noqa: E402
 from tfhrv.io.readers import read_recording  # noqa: E402
-from tfhrv.policy import assess_record  # noqa: E402
-from tfhrv.synth import simulate_recording, write_recording_csv  # noqa: E402
-from tfhrv.timegrid import scan  # noqa: E402
-from tfhrv.windows import LONG, SHORT, category_codes, tier_stationarity, tier_windows  # noqa: E402
+from tfhrv.signal.clean import clean  # noqa: E402
+from tfhrv.synth.recordings import simulate_recording, write_recording_csv  # noqa: E402
 
 
 def median_time(fn, runs: int) -> float:

@@ -23,8 +23,8 @@ from tfhrv.estimators.spectral import (
     spectral_exponent,
     welch_psd,
 )
-from tfhrv.resample import resample_even
-from tfhrv.synth import fgn
+from tfhrv.signal.resample import resample_even
+from tfhrv.synth.recordings import fgn
 
 N_BEATS = 100_000
 RUNS = 5

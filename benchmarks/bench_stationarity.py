@@ -25,13 +25,13 @@ import time  # noqa: E402
 import numpy as np  # noqa: E402
 from statsmodels.tsa.stattools import adfuller  # noqa: E402
 
-from tfhrv.stationarity import (  # noqa: E402
+from tfhrv.stationarity.battery import (  # noqa: E402
     adf_test,
     drift_test,
     kpss_test,
     stationarity_battery,
 )
-from tfhrv.synth import fgn  # noqa: E402
+from tfhrv.synth.recordings import fgn  # noqa: E402
 
 SHORT, LONG = 350, 15_000
 N_SHORT, N_LONG = 288, 24

@@ -3,7 +3,7 @@
 For every preset (tfhrv.estimators.presets), every true exponent on the grid and every
 series length, simulate the process, map it to an NN-like series (800 ms + 50 ms x
 standardised path), run the preset and record the estimate together with the class
-statistic of the same path (:func:`tfhrv.estimators.calibrate.class_statistic`).  All
+statistic of the same path (:func:`tfhrv.calibration.calibrate.class_statistic`).  All
 presets valid at a length run on the same simulated paths (one DFA fluctuation function
 serves alpha1, alpha2, alpha_long and the class statistic).
 
@@ -61,8 +61,8 @@ from pathlib import Path
 
 import numpy as np
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators.calibrate import CLASS_THRESHOLD, MODELS, class_range
+from tfhrv.calibration.calibrate import CLASS_THRESHOLD, MODELS, class_range
+from tfhrv.core.errors import InsufficientDataError
 from tfhrv.estimators.dfa import dfa_ranges
 from tfhrv.estimators.presets import DFA_PRESETS, PRESETS, dfa_fit_range, estimate
 from tfhrv.synth import fgn, powerlaw_noise

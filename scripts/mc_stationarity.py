@@ -18,7 +18,7 @@ from collections import Counter
 
 import numpy as np
 
-from tfhrv.stationarity import CATEGORIES, drift_test, stationarity_battery
+from tfhrv.stationarity.battery import CATEGORIES, drift_test, stationarity_battery
 from tfhrv.synth import fgn
 
 

@@ -27,7 +27,7 @@ import numpy as np
 
 from tfhrv.estimators.dfa import dfa
 from tfhrv.estimators.spectral import band_powers, welch_psd
-from tfhrv.resample import resample_even
+from tfhrv.signal.resample import resample_even
 from tfhrv.synth import PROFILES, simulate_recording
 
 MARGIN_S = 2700.0

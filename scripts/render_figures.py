@@ -20,13 +20,13 @@ from pathlib import Path
 
 import xarray as xr
 
-from tfhrv.clean import clean
-from tfhrv.io.datatree import open_tree
+from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
+from tfhrv.dataset.build import scan
+from tfhrv.dataset.netcdf import open_tree
 from tfhrv.io.readers import read_recording
-from tfhrv.plots import save_all, save_figure, scale_map
-from tfhrv.report import write_report
-from tfhrv.rhythm import RhythmOptions, rhythm_dataset, rhythm_table
-from tfhrv.timegrid import scan
+from tfhrv.signal.clean import clean
+from tfhrv.viz.figures import save_all, save_figure, scale_map
+from tfhrv.viz.report import write_report
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "sw01_day_worker.csv.gz"

@@ -1,4 +1,4 @@
-"""Monte-Carlo coverage of the cosinor confidence intervals (tfhrv.rhythm_core.cosinor).
+"""Monte-Carlo coverage of the cosinor confidence intervals (tfhrv.circadian.core.cosinor).
 
 Prints, for each CI method and model, the share of seeds whose 95 % interval holds the
 true amplitude (first component) and the true peak time. Numbers quoted in the cosinor
@@ -13,7 +13,7 @@ import sys
 
 import numpy as np
 
-from tfhrv.rhythm_core import cosinor
+from tfhrv.circadian.core import cosinor
 
 TAU, AMP, PEAK = 24.0, 5.0, 15.0
 

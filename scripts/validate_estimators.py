@@ -7,7 +7,7 @@ generators -- ``tfhrv.synth.fgn`` (Davies & Harte 1987) and the ``fbm`` package 
 Timmer & Koenig 1995 code), at N = 2^14 and 2^16 beats, every long-record preset (alpha1,
 alpha2, alpha_long, beta_wavelet_long, beta_spectral_long) is run by
 ``tfhrv.estimators.presets.estimate`` and corrected by
-``tfhrv.estimators.calibrate.calibrate`` under both calibration models ("powerlaw" and
+``tfhrv.calibration.calibrate.calibrate`` under both calibration models ("powerlaw" and
 "fgn-fbm", the latter with the class statistic of the same path), over R seeds.  The
 table gives, per cell, the true value (alpha = H for fGn and H + 1 for fBm and 1/f^beta
 noise; beta = 2H - 1 and 2H + 1; Eke et al. 2000, Kiyono 2015), the mean calibrated
@@ -76,8 +76,8 @@ from pathlib import Path
 import numpy as np
 from scipy import stats
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators.calibrate import MODELS, calibrate, class_statistic, load_table
+from tfhrv.calibration.calibrate import MODELS, calibrate, class_statistic, load_table
+from tfhrv.core.errors import InsufficientDataError
 from tfhrv.estimators.presets import estimate
 from tfhrv.synth import fgn
 

@@ -1,9 +1,9 @@
 """Validate the stationarity battery and the FFT-slope fitness verdict on synthetic
-families with a stated expected outcome (``tfhrv._families``).
+families with a stated expected outcome (``validation.families``).
 
 For every family, R seeds (default 100) are drawn and the observed category (window
 families: one 4-h long-tier window) or verdict (record families: a whole record, judged
-by the long-tier battery and ``tfhrv.policy.assess_record`` exactly as ``tfhrv inspect``)
+by the long-tier battery and ``tfhrv.analysis.policy.assess_record`` exactly as ``tfhrv inspect``)
 is compared with the expectation.  The table gives the share of hits with a 95 % Wilson
 interval, the distribution of outcomes, and PASS/FAIL against the targets:
 
@@ -34,12 +34,14 @@ from collections import Counter
 from concurrent.futures import ProcessPoolExecutor
 
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+# validation/ (fixtures shared with the tests, not shipped) lives at the repository root.
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 
 import numpy as np  # noqa: E402
 
 from tfhrv import __version__  # noqa: E402
-from tfhrv._families import record_families, window_families  # noqa: E402
-from tfhrv.policy import Verdict  # noqa: E402
+from tfhrv.analysis.policy import Verdict  # noqa: E402
+from validation.families import record_families, window_families  # noqa: E402
 
 NOTES = (
     "Reading notes.",
@@ -104,7 +106,7 @@ def main(argv: list[str] | None = None) -> int:
         f"Made by `python scripts/validate_verdict.py --seeds {args.seeds}"
         f"{' --level ' + args.level if args.level != 'all' else ''}` "
         f"(tfhrv {__version__}, {elapsed:.0f} s with {args.workers} workers). "
-        "Families, sizes and expectations: `tfhrv/_families.py`; method: the script's "
+        "Families, sizes and expectations: `validation/families.py`; method: the script's "
         "docstring. Sizes are in SDs of the background noise (NN = 800 ms + 50 ms x, x of "
         "unit variance: fGn for beta < 1, Timmer-Koenig 1/f^beta noise for beta >= 1). "
         "Window families are one 4-h long-tier window (18 000 beats); record families are "

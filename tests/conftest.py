@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
+
+# validation/ (fixtures shared by scripts and tests, not shipped) lives at the repository root.
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 OPEN_RR = Path(__file__).resolve().parents[2] / "shared" / "data" / "open-rr"
 

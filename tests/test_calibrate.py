@@ -1,4 +1,4 @@
-"""Tests of tfhrv.estimators.calibrate (bias correction and Neyman-belt intervals).
+"""Tests of tfhrv.calibration.calibrate (bias correction and Neyman-belt intervals).
 
 Expected values come from (a) theory: the exponent of fGn / fBm of known H (alpha = H
 and H + 1, beta = 2H - 1 and 2H + 1; Eke et al. 2000, doi:10.1007/s004249900135; Kiyono
@@ -27,7 +27,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from tfhrv.estimators.calibrate import (
+from tfhrv.calibration.calibrate import (
     CLASS_THRESHOLD,
     _confidence_set,
     calibrate,

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from tfhrv.clean import CleanOptions, Reason, clean
-from tfhrv.recording import Recording
+from tfhrv.signal.clean import CleanOptions, Reason, clean
+from tfhrv.signal.recording import Recording
 
 
 def _rec(rr, labels=None, times=None):

@@ -72,7 +72,7 @@ def test_installed_entry_point_runs(tmp_path):
 
 def test_calibration_choices_match_the_models():
     # the CLI spells the models out (no numpy import for --help); they must not drift
+    from tfhrv.calibration.calibrate import MODELS
     from tfhrv.cli import CALIBRATION_MODELS
-    from tfhrv.estimators.calibrate import MODELS
 
     assert CALIBRATION_MODELS == MODELS

@@ -21,21 +21,21 @@ import pytest
 import xarray as xr
 from scipy import stats
 
-from tfhrv.cohort import (
+from tfhrv.circadian.days import RhythmOptions
+from tfhrv.cli import main as cli_main
+from tfhrv.cohort.run import (
     CohortOptions,
     ManifestError,
     benjamini_hochberg,
     cliffs_delta,
     cliffs_delta_ci,
     compare_groups,
-    main,
     parameter_hash,
     read_manifest,
     run_cohort,
 )
-from tfhrv.rhythm import RhythmOptions
+from tfhrv.dataset.build import EXPONENTS, ScanOptions
 from tfhrv.synth import simulate_recording, write_recording_csv
-from tfhrv.timegrid import EXPONENTS, ScanOptions
 
 # Small, fast options: few surrogates and bootstrap resamples (the numbers are still the
 # full pipeline's; only the Monte-Carlo sizes shrink).
@@ -93,7 +93,7 @@ def test_manifest_errors_name_each_row(tmp_path):
 def test_command_reports_bad_manifest_before_work(tmp_path, capsys):
     (tmp_path / "m.csv").write_text("path,record\nnot_there.csv,r1\n")
     out = tmp_path / "out"
-    assert main([str(tmp_path / "m.csv"), "-o", str(out)]) == 2
+    assert cli_main(["cohort", str(tmp_path / "m.csv"), "-o", str(out)]) == 2
     err = capsys.readouterr().err
     assert err.strip().endswith("m.csv, line 2: no such file 'not_there.csv'")
     assert len(err.strip().splitlines()) == 1
@@ -210,9 +210,9 @@ def test_killed_run_resumed_on_local_cluster(sequential, study_dir, tmp_path):
     the uninterrupted in-process run."""
     out = tmp_path / "kill"
     code = textwrap.dedent(f"""
-        from tfhrv.cohort import CohortOptions, run_cohort
-        from tfhrv.rhythm import RhythmOptions
-        from tfhrv.timegrid import ScanOptions
+        from tfhrv.cohort.run import CohortOptions, run_cohort
+        from tfhrv.circadian.days import RhythmOptions
+        from tfhrv.dataset.build import ScanOptions
         opt = CohortOptions(scan=ScanOptions(n_surrogates=9), rhythm=RhythmOptions(n_boot=99),
                             n_boot=199)
         run_cohort({str(study_dir / 'manifest.csv')!r}, {str(out)!r}, workers=0, options=opt)

@@ -14,8 +14,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import loglog_fit
+from tfhrv.core.errors import InsufficientDataError
 from tfhrv.estimators.dfa import (
     _box_basis,
     alpha1,
@@ -25,6 +24,7 @@ from tfhrv.estimators.dfa import (
     dfa_fluctuation,
     local_alpha,
 )
+from tfhrv.estimators.loglog import loglog_fit
 from tfhrv.synth import fgn, fgn_autocovariance
 
 N_SIGMA = 4.0  # tolerance in standard errors of a Monte-Carlo mean

@@ -13,9 +13,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from tfhrv.errors import RecordFormatError, UnknownLabelWarning
+from tfhrv.core.errors import RecordFormatError, UnknownLabelWarning
 from tfhrv.io.readers import parse_start, read_recording
-from tfhrv.recording import Recording
+from tfhrv.signal.recording import Recording
 
 
 def _write(tmp_path: Path, name: str, text: str | bytes, *, gz: bool = False) -> Path:
@@ -244,7 +244,7 @@ def test_open_records_read_with_gaps_and_labels(open_rr):
     """Real 24-h records (PhysioNet nsr2db, chf2db, nsrdb; Goldberger et al. 2000)."""
     import csv
 
-    from tfhrv.clean import clean
+    from tfhrv.signal.clean import clean
 
     with (open_rr / "records.csv").open() as fh:
         rows = list(csv.DictReader(fh))

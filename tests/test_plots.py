@@ -18,11 +18,11 @@ import pytest
 import xarray as xr
 from numpy.testing import assert_allclose
 
-from tfhrv import plots
-from tfhrv.clean import clean
+from tfhrv.analysis.windows import LONG
+from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
-from tfhrv.timegrid import ScanOptions, scan
-from tfhrv.windows import LONG
+from tfhrv.viz import figures as plots
 
 HHMM = re.compile(r"^\d\d:\d\d(\n.*)?$")
 
@@ -69,7 +69,7 @@ def tick_labels(ax) -> list[str]:
 
 def test_import_tfhrv_does_not_import_matplotlib():
     # STYLE.md: only plots/report import matplotlib, and lazily
-    code = ("import sys, tfhrv, tfhrv.plots, tfhrv.report; "
+    code = ("import sys, tfhrv, tfhrv.viz.figures, tfhrv.viz.report; "
             "sys.exit(1 if 'matplotlib' in sys.modules else 0)")
     assert subprocess.run([sys.executable, "-c", code], check=False).returncode == 0
 
@@ -250,7 +250,7 @@ def test_rhythm_recovers_an_exact_cosine():
     assert labels[0] == "00:00" and all(HHMM.match(s) for s in labels)
     # no long tier in this tree: the panel says so instead of failing
     assert any("no long windows" in t.get_text() for ax in fig.axes for t in ax.texts)
-    # night 00:00-06:00 shaded (clock windows, tfhrv.rhythm defaults)
+    # night 00:00-06:00 shaded (clock windows, tfhrv.circadian.days defaults)
     spans = [p.get_x() for p in fig.axes[0].patches if p.get_label().startswith("night")]
     assert spans and spans[0] == pytest.approx(0.0)
 
@@ -288,7 +288,7 @@ def test_save_all_writes_every_figure_atomically(tree, figs, tmp_path):
 
 
 def test_smoothing_is_a_moving_average_that_keeps_gaps():
-    from tfhrv._plotkit import _smooth_time
+    from tfhrv.viz.figkit import _smooth_time
 
     a = np.array([[1.0], [2.0], [np.nan], [4.0], [5.0], [6.0]])
     out = _smooth_time(a, 3)

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from tfhrv.policy import DECISION_TABLE, choose_estimator, explain_table, fitness_verdict
-from tfhrv.stationarity import CATEGORIES
+from tfhrv.analysis.policy import DECISION_TABLE, choose_estimator, explain_table, fitness_verdict
+from tfhrv.stationarity.battery import CATEGORIES
 
 GOOD = dict(duration_s=86400.0, band_hz=(1e-4, 1e-2), coverage=0.98, longest_gap_s=30.0,
             ectopic_share=0.002, nonstationary_share=0.1, r_squared=0.97,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from tfhrv.policy import explain_table
+from tfhrv.analysis.policy import explain_table
 
 README = Path(__file__).resolve().parents[1] / "README.md"
 

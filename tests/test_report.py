@@ -17,14 +17,14 @@ from html.parser import HTMLParser
 import pytest
 import xarray as xr
 
-from tfhrv._caution import CAUTION
-from tfhrv.clean import clean
-from tfhrv.policy import DECISION_TABLE
-from tfhrv.report import SECTIONS, build_report, write_report
-from tfhrv.rhythm import RhythmOptions, rhythm_dataset, rhythm_table
+from tfhrv.analysis.policy import DECISION_TABLE
+from tfhrv.analysis.windows import LONG
+from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
+from tfhrv.core.caution import CAUTION
+from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
-from tfhrv.timegrid import ScanOptions, scan
-from tfhrv.windows import LONG
+from tfhrv.viz.report import SECTIONS, build_report, write_report
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -166,7 +166,7 @@ def test_methods_name_the_calibration_model_of_the_scan():
 
     import xarray as xr
 
-    from tfhrv.report import _CALIBRATION_TEXT, _calibration_model
+    from tfhrv.viz.report import _CALIBRATION_TEXT, _calibration_model
 
     def tree(params):
         return xr.DataTree(dataset=xr.Dataset(attrs={"parameters": params}))

@@ -15,10 +15,10 @@ from pathlib import Path
 
 import pytest
 
-from tfhrv.clean import clean
-from tfhrv.report import SECTIONS, build_report
+from tfhrv.dataset.build import scan
+from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
-from tfhrv.timegrid import scan
+from tfhrv.viz.report import SECTIONS, build_report
 
 SCREENSHOT_DIR = Path(os.environ.get("TFHRV_SCREENSHOT_DIR", "/nonexistent"))
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")

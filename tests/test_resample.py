@@ -1,4 +1,4 @@
-"""Tests of tfhrv.resample.
+"""Tests of tfhrv.signal.resample.
 
 Sources of expected values, named beside each check:
 (a) theory: the cubic-spline interpolation error bound of Hall & Meyer (J Approx Theory
@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.resample import EvenSeries, resample_even
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.signal.resample import EvenSeries, resample_even
 
 
 def _smooth(t):

@@ -1,4 +1,4 @@
-"""Day/night contrasts and cosinor on a scan (the xarray layer over tfhrv.rhythm_core)."""
+"""Day/night contrasts and cosinor on a scan (the xarray layer over tfhrv.circadian.core)."""
 
 from __future__ import annotations
 
@@ -8,16 +8,16 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from tfhrv.clean import clean
-from tfhrv.rhythm import (
+from tfhrv.circadian.days import (
     RhythmOptions,
     format_rhythm,
     read_sleep_log,
     rhythm_dataset,
     rhythm_table,
 )
+from tfhrv.dataset.build import scan
+from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
-from tfhrv.timegrid import scan
 
 START = dt.datetime(2026, 3, 2, 8, 0)
 
@@ -81,7 +81,7 @@ def test_sleep_log_takes_precedence(day_worker, tmp_path):
 
 
 def test_sleep_log_errors_name_file_and_line(tmp_path):
-    from tfhrv.errors import RecordFormatError
+    from tfhrv.core.errors import RecordFormatError
 
     bad = tmp_path / "log.csv"
     bad.write_text("record,rest_start,rest_end\nr1,yesterday,today\n")
@@ -94,7 +94,7 @@ def test_sleep_log_errors_name_file_and_line(tmp_path):
 def test_rhythm_group_keeps_the_periods_figures_shade(day_worker):
     # a sleep log 01:00-05:00 differs from the default clock night 00:00-06:00: the
     # /rhythm group keeps the mask the contrasts used and the figures shade that one
-    from tfhrv._plotkit import _rest
+    from tfhrv.viz.figkit import _rest
 
     _, tree = day_worker
     periods = [(dt.datetime(2026, 3, 3, 1), dt.datetime(2026, 3, 3, 5))]

@@ -1,4 +1,4 @@
-"""Tests of tfhrv.rhythm_core: cosinor, night/day contrast, rest-period inference.
+"""Tests of tfhrv.circadian.core: cosinor, night/day contrast, rest-period inference.
 
 Sources of expected values are named beside each check:
 - REFERENCES.md section 8 (exact derived cosinor worked examples);
@@ -15,13 +15,13 @@ import statsmodels.api as sm
 from numpy.testing import assert_allclose
 from scipy import special, stats
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.rhythm_core import (
+from tfhrv.circadian.core import (
     cosinor,
     infer_rest_period,
     infer_rest_periods,
     night_day_contrast,
 )
+from tfhrv.core.errors import InsufficientDataError
 
 TAU = 24.0
 

@@ -16,8 +16,8 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy import signal
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import ScalingFit
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.estimators.loglog import ScalingFit
 from tfhrv.estimators.spectral import (
     TASK_FORCE_BANDS,
     band_powers,
@@ -210,7 +210,7 @@ def test_exponent_on_colorednoise(beta):
 @pytest.mark.parametrize("hurst", [0.3, 0.7, 0.9])
 def test_exponent_on_fgn(hurst):
     # Theory: fGn has beta = 2H - 1 (REFERENCES.md 2.1); Davies-Harte paths from
-    # tfhrv.synth.  Tolerance as above (fGn SD 0.041 < SD_ONE).
+    # tfhrv.synth.recordings.  Tolerance as above (fGn SD 0.041 < SD_ONE).
     est = np.array([_beta(fgn(N_MC, hurst, rng=s)).exponent for s in SEEDS])
     assert abs(est.mean() - (2 * hurst - 1)) < TOL_MEAN5
 

@@ -1,4 +1,4 @@
-"""Tests of tfhrv.stationarity.
+"""Tests of tfhrv.stationarity.battery.
 
 Sources of expected values (STYLE.md "Tests"):
 (a) exact results: the KPSS hand example, the invariance of Fourier moduli under phase
@@ -19,8 +19,8 @@ from numpy.testing import assert_allclose
 from statsmodels.tools.sm_exceptions import InterpolationWarning
 from statsmodels.tsa.stattools import adfuller, kpss
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.stationarity import (
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.stationarity.battery import (
     CATEGORIES,
     _trim_ends,
     adf_test,
@@ -354,7 +354,7 @@ def test_adf_pvalue_equals_statsmodels_mackinnonp():
     # adf_test evaluates the same tables without the per-call overhead
     from statsmodels.tsa.adfvalues import mackinnonp
 
-    from tfhrv.stationarity import _mackinnon_p_constant
+    from tfhrv.stationarity.battery import _mackinnon_p_constant
 
     for stat in np.linspace(-25.0, 3.0, 561):
         assert _mackinnon_p_constant(stat) == pytest.approx(

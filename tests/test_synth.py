@@ -1,4 +1,4 @@
-"""Tests of tfhrv.synth: Davies–Harte fGn, Timmer–König noise, synthetic recordings.
+"""Tests of tfhrv.synth.recordings: Davies–Harte fGn, Timmer–König noise, synthetic recordings.
 
 Sources of the expected values (named again beside each check):
 (a) exact theory and the published table of REFERENCES.md section 2.2 (fGn autocovariance);
@@ -25,18 +25,9 @@ import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 from scipy import signal
 
-from tfhrv._synth_model import (
-    ALPHA1_SCALES,
-    LONG_SCALES,
-    expected_dfa1_f2,
-    expected_slope,
-    lf_resonance,
-    lf_resonance_acov,
-    powerlaw_acov,
-)
 from tfhrv.estimators.spectral import band_powers, welch_psd
-from tfhrv.recording import KNOWN_LABELS, Recording
-from tfhrv.resample import resample_even
+from tfhrv.signal.recording import KNOWN_LABELS, Recording
+from tfhrv.signal.resample import resample_even
 from tfhrv.synth import (
     PROFILES,
     SimulationProfile,
@@ -48,6 +39,15 @@ from tfhrv.synth import (
     sidecar_path,
     simulate_recording,
     write_recording_csv,
+)
+from tfhrv.synth.model import (
+    ALPHA1_SCALES,
+    LONG_SCALES,
+    expected_dfa1_f2,
+    expected_slope,
+    lf_resonance,
+    lf_resonance_acov,
+    powerlaw_acov,
 )
 
 # ---------------------------------------------------------------------------------------

@@ -12,12 +12,12 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from tfhrv.clean import clean
-from tfhrv.io.datatree import open_tree, write_tree
-from tfhrv.recording import Recording
+from tfhrv.analysis.windows import LONG, TierSpec, window_starts
+from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.dataset.netcdf import open_tree, write_tree
+from tfhrv.signal.clean import clean
+from tfhrv.signal.recording import Recording
 from tfhrv.synth import fgn
-from tfhrv.timegrid import ScanOptions, scan
-from tfhrv.windows import LONG, TierSpec, window_starts
 
 START = dt.datetime(2026, 3, 2, 8, 0)
 
@@ -184,7 +184,7 @@ def test_calibration_model_is_recorded_and_used():
     # the calibration table in the provenance.
     import json
 
-    from tfhrv.estimators.calibrate import table_sha256
+    from tfhrv.calibration.calibrate import table_sha256
 
     walk = np.cumsum(fgn(int(3 * 3600 / 0.8), 0.5, rng=11))
     rr = 800.0 + 50.0 * (walk - walk.mean()) / walk.std()

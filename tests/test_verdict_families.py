@@ -7,16 +7,16 @@ verdict meet almost surely and a broken one does not.  Seeds differ from the scr
 Sources: background noise is exact fGn (Davies & Harte 1987) or Timmer & Koenig (1995)
 1/f^beta noise; the gap limit (30 min, common practice) and the ectopy limits (Peltola et
 al. 2004 for the caution; common practice for unfit) are documented in
-``tfhrv.policy.FitnessThresholds``.
+``tfhrv.analysis.policy.FitnessThresholds``.
 """
 
 from __future__ import annotations
 
 import pytest
 
-from tfhrv._families import ALARMS, record, record_outcome, window_category
-from tfhrv.clean import clean
-from tfhrv.inspection import inspect_record
+from tfhrv.analysis.inspection import inspect_record
+from tfhrv.signal.clean import clean
+from validation.families import ALARMS, record, record_outcome, window_category
 
 SEEDS = range(8)
 

@@ -15,8 +15,8 @@ import pytest
 import pywt
 from numpy.testing import assert_allclose
 
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import loglog_fit
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.estimators.loglog import loglog_fit
 from tfhrv.estimators.wavelet import (
     _valid_intervals,
     logscale_bias,

@@ -1,8 +1,8 @@
 """tfhrv: time-resolved scaling analysis of long heart inter-beat interval recordings.
 
 For research use only; not for diagnosis.  ``import tfhrv`` is cheap: the public names
-below are imported on first use.  The cleaning function is ``tfhrv.clean.clean`` (not
-re-exported: the name ``tfhrv.clean`` is its module).
+below are imported on first use.  The cleaning function is ``tfhrv.signal.clean.clean`` (not
+re-exported: the name ``tfhrv.signal.clean`` is its module).
 """
 
 from __future__ import annotations
@@ -16,16 +16,16 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0.0.0"
 
 _LAZY = {
-    "CleanOptions": "tfhrv.clean",
-    "InsufficientDataError": "tfhrv.errors",
-    "RecordFormatError": "tfhrv.errors",
-    "Recording": "tfhrv.recording",
-    "ScanOptions": "tfhrv.timegrid",
-    "TfhrvWarning": "tfhrv.errors",
-    "inspect_record": "tfhrv.inspection",
+    "CleanOptions": "tfhrv.signal.clean",
+    "InsufficientDataError": "tfhrv.core.errors",
+    "RecordFormatError": "tfhrv.core.errors",
+    "Recording": "tfhrv.signal.recording",
+    "ScanOptions": "tfhrv.dataset.build",
+    "TfhrvWarning": "tfhrv.core.errors",
+    "inspect_record": "tfhrv.analysis.inspection",
     "read_recording": "tfhrv.io.readers",
-    "rhythm_table": "tfhrv.rhythm",
-    "scan": "tfhrv.timegrid",
+    "rhythm_table": "tfhrv.circadian.days",
+    "scan": "tfhrv.dataset.build",
 }
 
 __all__ = sorted([*_LAZY, "__version__"])

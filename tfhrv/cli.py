@@ -19,8 +19,8 @@ import sys  # noqa: E402
 import warnings  # noqa: E402
 from collections.abc import Sequence  # noqa: E402
 
-from tfhrv._caution import CAUTION  # noqa: E402
-from tfhrv.errors import InsufficientDataError, RecordFormatError, TfhrvWarning  # noqa: E402
+from tfhrv.core.caution import CAUTION  # noqa: E402
+from tfhrv.core.errors import InsufficientDataError, RecordFormatError, TfhrvWarning  # noqa: E402
 
 __all__ = ["main"]
 
@@ -42,7 +42,7 @@ def _add_reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--record-id", help="record identifier (default: from the file)")
 
 
-#: tfhrv.estimators.calibrate.MODELS, spelled out so that --help needs no numpy import
+#: tfhrv.calibration.calibrate.MODELS, spelled out so that --help needs no numpy import
 #: (tests/test_cli.py checks that the two agree)
 CALIBRATION_MODELS = ("powerlaw", "fgn-fbm")
 
@@ -76,9 +76,9 @@ def _read(args: argparse.Namespace):
 
 
 def _cmd_inspect(args: argparse.Namespace) -> int:
-    from tfhrv.clean import clean
-    from tfhrv.inspection import format_inspection, inspect_record, inspection_dict
-    from tfhrv.policy import FitnessThresholds, explain_table
+    from tfhrv.analysis.inspection import format_inspection, inspect_record, inspection_dict
+    from tfhrv.analysis.policy import FitnessThresholds, explain_table
+    from tfhrv.signal.clean import clean
 
     if args.explain:
         print(explain_table())
@@ -101,8 +101,8 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
 def _scan_options(args: argparse.Namespace):
     from dataclasses import replace
 
-    from tfhrv.timegrid import ScanOptions
-    from tfhrv.windows import LONG, SHORT
+    from tfhrv.analysis.windows import LONG, SHORT
+    from tfhrv.dataset.build import ScanOptions
 
     return ScanOptions(
         short=replace(SHORT, window_s=args.short_window * 60.0, hop_s=args.short_hop * 60.0),
@@ -125,9 +125,9 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
 
 
 def _cmd_scan(args: argparse.Namespace) -> int:
-    from tfhrv.clean import clean
-    from tfhrv.io.datatree import write_tree
-    from tfhrv.timegrid import scan
+    from tfhrv.dataset.build import scan
+    from tfhrv.dataset.netcdf import write_tree
+    from tfhrv.signal.clean import clean
 
     _check_output(args.output, (".nc",))
     options = _scan_options(args)
@@ -146,14 +146,14 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
 
     import xarray as xr
 
-    from tfhrv.io.datatree import atomic_write, open_tree, write_tree
-    from tfhrv.rhythm import (
+    from tfhrv.circadian.days import (
         RhythmOptions,
         format_rhythm,
         read_sleep_log,
         rhythm_dataset,
         rhythm_table,
     )
+    from tfhrv.dataset.netcdf import atomic_write, open_tree, write_tree
 
     path = Path(args.scan_file)
     if not path.is_file():
@@ -178,9 +178,9 @@ def _pipeline(rec, options, rhythm_options=None):
     """read -> clean -> scan -> rhythm: the tree with its /rhythm group, and the table."""
     import xarray as xr
 
-    from tfhrv.clean import clean
-    from tfhrv.rhythm import RhythmOptions, rhythm_dataset, rhythm_table
-    from tfhrv.timegrid import scan
+    from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
+    from tfhrv.dataset.build import scan
+    from tfhrv.signal.clean import clean
 
     tree = scan(clean(rec), options=options)
     ropt = rhythm_options or RhythmOptions()
@@ -192,8 +192,8 @@ def _pipeline(rec, options, rhythm_options=None):
 def _cmd_figures(args: argparse.Namespace) -> int:
     from pathlib import Path
 
-    from tfhrv.io.datatree import open_tree
-    from tfhrv.plots import save_all
+    from tfhrv.dataset.netcdf import open_tree
+    from tfhrv.viz.figures import save_all
 
     path = Path(args.scan_file)
     if not path.is_file():
@@ -207,8 +207,8 @@ def _cmd_figures(args: argparse.Namespace) -> int:
 
 
 def _cmd_report(args: argparse.Namespace) -> int:
-    from tfhrv.io.datatree import write_tree
-    from tfhrv.report import write_report
+    from tfhrv.dataset.netcdf import write_tree
+    from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
     tree, table = _pipeline(_read(args), _scan_options(args))
@@ -224,10 +224,10 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     import tfhrv
-    from tfhrv.io.datatree import atomic_write, write_tree
+    from tfhrv.dataset.build import ScanOptions
+    from tfhrv.dataset.netcdf import atomic_write, write_tree
     from tfhrv.io.readers import read_recording
-    from tfhrv.report import write_report
-    from tfhrv.timegrid import ScanOptions
+    from tfhrv.viz.report import write_report
 
     demo = Path(tfhrv.__file__).resolve().parents[1] / "demo_data" / "sw01_day_worker.csv.gz"
     if not demo.is_file():
@@ -249,9 +249,12 @@ def _cmd_demo(args: argparse.Namespace) -> int:
 
 
 def _cmd_cohort(args: argparse.Namespace) -> int:
-    from tfhrv.cohort import run_from_args
+    from tfhrv.cohort.run import CohortOptions, format_summary, run_cohort
 
-    return int(run_from_args(args))
+    res = run_cohort(args.manifest, args.output, workers=args.workers,
+                     scheduler=args.scheduler, options=CohortOptions(report=args.report))
+    print(format_summary(res))
+    return 1 if res.count("failed") else 0
 
 
 def _cmd_synth(args: argparse.Namespace) -> int:

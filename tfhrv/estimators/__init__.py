@@ -1,7 +1,5 @@
 """Scaling-exponent estimators: pure functions on 1-D arrays returning frozen results."""
 
-from tfhrv.estimators._fit import Conversion, ScalingFit, convert_exponent, loglog_fit
-from tfhrv.estimators.calibrate import calibrate
 from tfhrv.estimators.dfa import (
     Fluctuation,
     LocalSlopes,
@@ -13,6 +11,7 @@ from tfhrv.estimators.dfa import (
     local_alpha,
     local_slopes,
 )
+from tfhrv.estimators.loglog import Conversion, ScalingFit, convert_exponent, loglog_fit
 from tfhrv.estimators.presets import DFA_PRESETS, PRESETS, dfa_fit_range, estimate, estimate_dfa
 from tfhrv.estimators.spectral import (
     TASK_FORCE_BANDS,
@@ -42,7 +41,6 @@ __all__ = [
     "alpha2",
     "band_powers",
     "beta_from_nn",
-    "calibrate",
     "convert_exponent",
     "dfa",
     "dfa_fit_range",

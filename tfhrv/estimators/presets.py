@@ -25,10 +25,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from tfhrv._validation import as_1d_float
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import ScalingFit
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.validation import as_1d_float
 from tfhrv.estimators.dfa import Fluctuation, dfa, dfa_ranges
+from tfhrv.estimators.loglog import ScalingFit
 from tfhrv.estimators.spectral import beta_from_nn, periodogram_psd, spectral_exponent
 from tfhrv.estimators.wavelet import logscale_diagram, wavelet_exponent
 
@@ -100,7 +100,7 @@ def estimate(
     Returns
     -------
     ScalingFit
-        Uncalibrated; see :func:`tfhrv.estimators.calibrate.calibrate`.
+        Uncalibrated; see :func:`tfhrv.calibration.calibrate.calibrate`.
 
     Raises
     ------

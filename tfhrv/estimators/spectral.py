@@ -16,10 +16,10 @@ import numpy as np
 from scipy import fft as sp_fft
 from scipy import signal, special
 
-from tfhrv._validation import as_1d_float, check_choice, check_positive, check_range, readonly
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import ScalingFit, loglog_fit
-from tfhrv.resample import resample_even
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.validation import as_1d_float, check_choice, check_positive, check_range, readonly
+from tfhrv.estimators.loglog import ScalingFit, loglog_fit
+from tfhrv.signal.resample import resample_even
 
 __all__ = [
     "TASK_FORCE_BANDS",
@@ -532,7 +532,7 @@ def spectral_exponent(
     first would bias bins by their point count.  Equal weight per bin stops the many
     high-frequency ordinates from dominating the fit (common practice in the 24-h
     power-law literature, from memory: Saul et al. 1988; Bigger et al. 1996).  beta is
-    minus the least-squares slope of y on x (:func:`tfhrv.estimators._fit.loglog_fit`),
+    minus the least-squares slope of y on x (:func:`tfhrv.estimators.loglog.loglog_fit`),
     with its regression SE, a regression 95 % interval (t quantile, n_points - 2 df),
     weighted r^2 and the p-value of a quadratic term (curvature).
 
@@ -726,7 +726,7 @@ def beta_from_nn(
     max_gap_s : float or None, default 3
         Resampled points farther than this from every kept beat lie in a gap and are
         filled by a straight line (a cubic spline overshoots wildly across gaps of
-        minutes to hours); see :func:`tfhrv.resample.resample_even`.
+        minutes to hours); see :func:`tfhrv.signal.resample.resample_even`.
 
     Returns
     -------

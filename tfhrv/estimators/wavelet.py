@@ -14,9 +14,9 @@ import numpy as np
 import pywt
 from scipy import special
 
-from tfhrv._validation import as_1d_float, check_choice, readonly
-from tfhrv.errors import InsufficientDataError
-from tfhrv.estimators._fit import ScalingFit, loglog_fit
+from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.validation import as_1d_float, check_choice, readonly
+from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 
 __all__ = [
     "LogscaleDiagram",

@@ -2,7 +2,7 @@
 
 The format is found by sniffing the content (gzip is detected by its magic bytes, EDF by
 its fixed header); every choice can be forced by an option.  Every problem a user can
-cause raises :class:`tfhrv.errors.RecordFormatError` naming the file, the line (1-based,
+cause raises :class:`tfhrv.core.errors.RecordFormatError` naming the file, the line (1-based,
 in the decompressed text) and the problem.
 
 Text formats
@@ -34,7 +34,7 @@ times are their running sum; with beat times only, intervals are their differenc
 EDF+
 ----
 Beat annotations are TAL annotations whose text is a beat label code (see
-:data:`tfhrv.recording.KNOWN_LABELS`) or ``R``/``beat`` (read as ``N``).  The start is the
+:data:`tfhrv.signal.recording.KNOWN_LABELS`) or ``R``/``beat`` (read as ``N``).  The start is the
 EDF header's start date and time.  Other annotations are counted in the metadata.
 """
 
@@ -52,8 +52,8 @@ from typing import Literal
 
 import numpy as np
 
-from tfhrv.errors import RecordFormatError, UnknownLabelWarning
-from tfhrv.recording import KNOWN_LABELS, Recording
+from tfhrv.core.errors import RecordFormatError, UnknownLabelWarning
+from tfhrv.signal.recording import KNOWN_LABELS, Recording
 
 __all__ = ["read_recording", "parse_start"]
 
@@ -118,7 +118,7 @@ def read_recording(
     start: str | dt.datetime | dt.time | None = None,
     record_id: str | None = None,
 ) -> Recording:
-    """Read a beat-interval file (plain or gzip) into a :class:`~tfhrv.recording.Recording`.
+    """Read a beat-interval file (plain or gzip) into a :class:`~tfhrv.signal.recording.Recording`.
 
     Parameters
     ----------

@@ -1,0 +1,352 @@
+"""Day/night contrasts and 24-h cosinor of every time-resolved variable of a scan.
+
+Works on the DataTree written by :func:`tfhrv.dataset.build.scan` and returns a table (one row
+per variable and day) plus the ``/rhythm`` group.
+
+Day and night come, in order of precedence, from a sleep log, from clock windows
+(defaults night 00:00-06:00, day 10:00-20:00: common practice), or, when the clock start
+is unknown, from the inferred rest period: the 6-h block with the longest mean NN interval
+(common practice: heart rate is lowest during night sleep).  Results based on an inferred
+period say so in the ``period_source`` column.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+from dataclasses import asdict, dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from tfhrv.circadian.core import cosinor, infer_rest_periods, night_day_contrast
+from tfhrv.core.errors import InsufficientDataError, RecordFormatError
+
+__all__ = ["RhythmOptions", "format_rhythm", "read_sleep_log", "rhythm_dataset", "rhythm_table"]
+
+#: (tier, variable) pairs analysed, in table order.
+VARIABLES: tuple[tuple[str, str], ...] = (
+    ("short", "alpha1"),
+    ("short", "alpha2"),
+    ("short", "beta_wavelet"),
+    ("short", "exponent"),
+    ("long", "alpha_long"),
+    ("long", "exponent"),
+    ("short", "nn_mean"),
+    ("short", "nn_sd"),
+    ("short", "lf_power"),
+    ("short", "hf_power"),
+)
+
+
+@dataclass(frozen=True, slots=True)
+class RhythmOptions:
+    """Options of the rhythm analysis.
+
+    ``night_hours``/``day_hours`` are clock windows (start, end) in hours, wrapping past
+    midnight when start > end; ``period`` = "auto" uses the clock when the start is known
+    and the inferred rest period otherwise, "clock" insists on the clock, "inferred" always
+    infers.  ``rest_hours`` is the length of the inferred rest block; ``block_hours`` the
+    bootstrap block length (about an hour, to respect autocorrelation); ``min_coverage``
+    the share of a window that must hold NN intervals for it to count.
+    """
+
+    night_hours: tuple[float, float] = (0.0, 6.0)
+    day_hours: tuple[float, float] = (10.0, 20.0)
+    period: str = "auto"
+    rest_hours: float = 6.0
+    block_hours: float = 1.0
+    n_boot: int = 999
+    min_coverage: float = 0.5
+    seed: int = 0
+
+    def __post_init__(self) -> None:
+        if self.period not in ("auto", "clock", "inferred"):
+            raise ValueError(
+                f"period must be one of ('auto', 'clock', 'inferred'), got {self.period!r}")
+        for name in ("night_hours", "day_hours"):
+            a, b = getattr(self, name)
+            if not (0 <= a <= 24 and 0 <= b <= 24) or a == b:
+                raise ValueError(f"{name} must be two different clock hours in [0, 24], "
+                                 f"got {(a, b)!r}")
+
+
+def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetime, dt.datetime]]:
+    """Rest periods of one record from a sleep-log CSV.
+
+    The CSV has a header with columns ``record``, ``rest_start`` and ``rest_end`` (ISO 8601
+    timestamps); one row per rest period.  Rows of other records are ignored.
+
+    Raises
+    ------
+    RecordFormatError
+        Naming the file and line of a bad row, or when the record has no row.
+    """
+    p = Path(path)
+    if not p.is_file():
+        raise RecordFormatError(str(p), "no such sleep-log file")
+    out = []
+    with p.open(newline="") as fh:
+        reader = csv.DictReader(fh)
+        missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
+        if missing:
+            raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
+                                    line=1)
+        for i, row in enumerate(reader, start=2):
+            if row["record"].strip() != record_id:
+                continue
+            try:
+                a = dt.datetime.fromisoformat(row["rest_start"].strip())
+                b = dt.datetime.fromisoformat(row["rest_end"].strip())
+            except ValueError:
+                raise RecordFormatError(str(p), "rest_start/rest_end must be ISO 8601 "
+                                        "timestamps", line=i) from None
+            if b <= a:
+                raise RecordFormatError(str(p), "rest_end is not after rest_start", line=i)
+            out.append((a, b))
+    if not out:
+        raise RecordFormatError(str(p), f"no rest period for record {record_id!r}")
+    return out
+
+
+def _in_window(clock_h: np.ndarray, window: tuple[float, float]) -> np.ndarray:
+    a, b = window
+    return ((clock_h >= a) & (clock_h < b)) if a < b else ((clock_h >= a) | (clock_h < b))
+
+
+def _series(tree: xr.DataTree, tier: str, var: str) -> np.ndarray:
+    ds = tree[f"/{tier}"].to_dataset()
+    if var == "lf_power":
+        return ds["band_power"].sel(band="LF").values
+    if var == "hf_power":
+        return ds["band_power"].sel(band="HF").values
+    return ds[var].values
+
+
+def _periods(tree: xr.DataTree, tier: str, opt: RhythmOptions, sleep_log):
+    """night and day masks for a tier, the day index of each window, and the source."""
+    root = tree.attrs
+    ds = tree[f"/{tier}"].to_dataset()
+    elapsed_h = ds["elapsed"].values / 3600.0
+    clock_known = root.get("clock", "unknown") != "unknown"
+    if sleep_log is not None:
+        if root.get("clock") != "timestamp":
+            raise ValueError("a sleep log needs a record with a full clock start (date and "
+                             "time); give it with --start YYYY-MM-DDTHH:MM")
+        start = dt.datetime.fromisoformat(root["start"])
+        night = np.zeros(elapsed_h.size, dtype=bool)
+        for a, b in sleep_log:
+            ha = (a - start).total_seconds() / 3600
+            hb = (b - start).total_seconds() / 3600
+            night |= (elapsed_h >= ha) & (elapsed_h < hb)
+        clock_h = ds["clock_hour"].values
+        day = ~night & _in_window(clock_h, opt.day_hours)
+        source = "sleep log"
+    elif opt.period == "clock" or (opt.period == "auto" and clock_known):
+        if not clock_known:
+            raise ValueError(
+                "day/night clock windows need the recording's clock start; give it with "
+                "--start HH:MM (or a full timestamp), or use --period inferred to find the "
+                "rest period from the data")
+        clock_h = ds["clock_hour"].values
+        night = _in_window(clock_h, opt.night_hours)
+        day = _in_window(clock_h, opt.day_hours)
+        source = "clock"
+    else:
+        nn = tree["/short"]["nn_mean"].values
+        t_short = tree["/short"]["elapsed"].values / 3600.0
+        start_h = float(tree["/short"]["clock_hour"].values[0] - t_short[0]) % 24 if (
+            "clock_hour" in tree["/short"].coords) else 0.0
+        rests = infer_rest_periods(t_short, nn, length_hours=opt.rest_hours,
+                                   day_boundary="noon" if clock_known else "record",
+                                   clock_start_hours=start_h)
+        night = np.zeros(elapsed_h.size, dtype=bool)
+        for r in rests:
+            if np.isfinite(r.start_hours):
+                night |= (elapsed_h >= r.start_hours) & (elapsed_h < r.end_hours)
+        # day: windows at least 4 h away from every inferred rest period (common practice)
+        day = np.ones(elapsed_h.size, dtype=bool)
+        for r in rests:
+            if np.isfinite(r.start_hours):
+                day &= (elapsed_h < r.start_hours - 4) | (elapsed_h >= r.end_hours + 4)
+        source = "inferred rest period"
+    day_index = np.floor(elapsed_h / 24.0).astype(int)
+    if "clock_hour" in ds.coords:
+        # days run noon to noon so that each holds a whole night
+        clock0 = float((ds["clock_hour"].values[0] - elapsed_h[0]) % 24)
+        day_index = np.floor((elapsed_h + clock0 - 12.0) / 24.0).astype(int)
+        day_index -= day_index.min()
+    return night, day & ~night, day_index, source
+
+
+def _cosinor_time(tree: xr.DataTree, tier: str) -> tuple[np.ndarray, str]:
+    ds = tree[f"/{tier}"].to_dataset()
+    elapsed_h = ds["elapsed"].values / 3600.0
+    if "clock_hour" in ds.coords:
+        clock0 = float((ds["clock_hour"].values[0] - elapsed_h[0]) % 24)
+        return clock0 + elapsed_h, "clock"
+    return elapsed_h, "hours from start"
+
+
+def rhythm_table(tree: xr.DataTree, /, *, options: RhythmOptions | None = None,
+                 sleep_log: list | None = None) -> pd.DataFrame:
+    """Day/night contrast and cosinor rows for every variable, pooled and per day.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per (variable, day); columns: ``tier``, ``variable``, ``day`` ("all" or
+        1, 2, ...), ``period_source``, ``day_mean``, ``night_mean``, ``difference`` (night
+        - day), ``difference_low``/``_high`` (block-bootstrap 95 % interval),
+        ``effect_size`` (Hedges' g), ``n_day``, ``n_night``, ``n_excluded``, and for the
+        pooled rows the single-component cosinor ``mesor``, ``amplitude``,
+        ``acrophase_h`` with their intervals, ``cosinor_p`` (zero-amplitude F-test),
+        ``acrophase_h2``/``amplitude2``/``cosinor2_p`` of the 24 + 12 h model, and
+        ``acrophase_reference`` ("clock" or "hours from start").
+    """
+    opt = options or RhythmOptions()
+    rows = []
+    for tier, var in VARIABLES:
+        ds = tree[f"/{tier}"].to_dataset()
+        y = _series(tree, tier, var)
+        valid = np.isfinite(y) & (np.nan_to_num(ds["coverage"].values) >= opt.min_coverage)
+        night, day, day_index, source = _periods(tree, tier, opt, sleep_log)
+        t_h = ds["elapsed"].values / 3600.0
+        tcos, ref = _cosinor_time(tree, tier)
+        groups = [("all", np.ones(y.size, dtype=bool))]
+        if day_index.max() > 0:
+            groups += [(str(d + 1), day_index == d) for d in np.unique(day_index)]
+        for label, sel in groups:
+            c = night_day_contrast(t_h[sel], y[sel], night[sel], day[sel],
+                                   block_hours=opt.block_hours, n_boot=opt.n_boot,
+                                   rng=opt.seed, valid=valid[sel])
+            row = {
+                "tier": tier, "variable": var, "day": label, "period_source": source,
+                "day_mean": c.day_mean, "night_mean": c.night_mean,
+                "difference": c.difference, "difference_low": c.difference_ci[0],
+                "difference_high": c.difference_ci[1], "effect_size": c.effect_size,
+                "n_day": c.n_day, "n_night": c.n_night, "n_excluded": c.n_excluded,
+                "contrast_note": c.reason or "",
+            }
+            if label == "all":
+                row.update(_cosinor_columns(tcos[valid], y[valid], ref))
+            rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def _cosinor_columns(t: np.ndarray, y: np.ndarray, ref: str) -> dict:
+    out = {"acrophase_reference": ref}
+    span = float(np.ptp(t)) if t.size else 0.0
+    for harmonics, suffix in ((1, ""), (2, "2")):
+        keys = ["mesor", "mesor_low", "mesor_high", "amplitude", "amplitude_low",
+                "amplitude_high", "acrophase_h", "acrophase_low", "acrophase_high",
+                "cosinor_p"]
+        names = [k + suffix if suffix else k for k in keys]
+        if harmonics == 2:
+            names = [n for n in names if not n.startswith("mesor")]
+        vals = dict.fromkeys(names, np.nan)
+        if span >= 18.0 and t.size >= 4 * harmonics + 2:
+            try:
+                f = cosinor(t, y, period_hours=24.0, harmonics=harmonics)
+            except InsufficientDataError:
+                f = None
+            if f is not None:
+                full = {
+                    "mesor": f.mesor, "mesor_low": f.mesor_ci[0], "mesor_high": f.mesor_ci[1],
+                    "amplitude": f.amplitude, "amplitude_low": f.amplitude_ci[0],
+                    "amplitude_high": f.amplitude_ci[1],
+                    "acrophase_h": f.acrophase_hours % 24,
+                    "acrophase_low": f.acrophase_ci_hours[0] % 24,
+                    "acrophase_high": f.acrophase_ci_hours[1] % 24,
+                    "cosinor_p": f.f_pvalue,
+                }
+                for k, v in full.items():
+                    name = k + suffix if suffix else k
+                    if name in vals:
+                        vals[name] = float(v)
+        out.update(vals)
+    return out
+
+
+def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
+                   tree: xr.DataTree | None = None,
+                   sleep_log: list | None = None) -> xr.Dataset:
+    """The table as the ``/rhythm`` group (dimension ``row``) with units and long names.
+
+    Given the scan ``tree`` (and the ``sleep_log`` the table was made with), the group also
+    keeps the night/rest and day masks of the short windows (``short_night``,
+    ``short_day`` on dimension ``short_window``), so that figures shade the periods the
+    contrasts actually used.
+    """
+    ds = xr.Dataset.from_dataframe(table.reset_index(drop=True).rename_axis("row"))
+    if tree is not None:
+        night, day, _, source = _periods(tree, "short", options, sleep_log)
+        label = _period_label(source, options)
+        for name, mask, what in (("short_night", night, "night/rest"), ("short_day", day, "day")):
+            ds[name] = ("short_window", mask.astype(np.int8), {
+                "long_name": f"short window lies in the {what} period used by the contrasts",
+                "flag_values": np.array([0, 1], np.int8), "flag_meanings": "no yes",
+                "period_source": source, "period_label": label})
+    for name in ds.data_vars:
+        if ds[name].dtype == object:
+            ds[name] = ds[name].astype(str)
+        if name not in ("short_night", "short_day"):
+            ds[name].attrs["long_name"] = name.replace("_", " ")
+    for name in ("acrophase_h", "acrophase_low", "acrophase_high", "acrophase_h2",
+                 "acrophase_low2", "acrophase_high2"):
+        if name in ds:
+            ds[name].attrs["units"] = "h"
+    ds.attrs["options"] = str(asdict(options))
+    ds.attrs["method"] = ("night - day difference with a moving-block bootstrap interval "
+                          "(Kunsch 1989); Hedges' g; single and 24 + 12 h cosinor (Nelson et "
+                          "al. 1979; Bingham et al. 1982; Cornelissen 2014)")
+    return ds
+
+
+def _fmt(v: float, digits: int = 2) -> str:
+    return "n/a" if not np.isfinite(v) else f"{v:.{digits}f}"
+
+
+def _period_label(source: str, options: RhythmOptions) -> str:
+    """How figures name the night/rest period of a ``_periods`` source."""
+    if source == "clock":
+        return (f"night {_clock(options.night_hours[0])}–{_clock(options.night_hours[1])} "
+                "(clock)")
+    if source == "inferred rest period":
+        return "rest period (inferred: longest mean NN)"
+    return f"rest period ({source})"
+
+
+def _clock(h: float) -> str:
+    if not np.isfinite(h):
+        return "n/a"
+    m = int(round(h * 60)) % (24 * 60)
+    return f"{m // 60:02d}:{m % 60:02d}"
+
+
+def format_rhythm(table: pd.DataFrame, /) -> str:
+    """Compact text table of the pooled rows (one line per variable)."""
+    pooled = table[table["day"] == "all"]
+    head = (f"{'variable':<19} {'day':>8} {'night':>8} {'night-day [95% CI]':>24} "
+            f"{'g':>6} {'MESOR':>8} {'amplitude [CI]':>20} {'acrophase [CI]':>21} {'p':>8}")
+    lines = [f"day/night from: {pooled['period_source'].iloc[0]}; acrophase as "
+             f"{pooled['acrophase_reference'].iloc[0]}", head, "-" * len(head)]
+    for _, r in pooled.iterrows():
+        digits = 0 if r["variable"] in ("nn_mean", "nn_sd", "lf_power", "hf_power") else 2
+        name = f"{r['variable']} ({r['tier']})"
+        diff = (f"{_fmt(r['difference'], digits)} [{_fmt(r['difference_low'], digits)}, "
+                f"{_fmt(r['difference_high'], digits)}]")
+        amp = (f"{_fmt(r['amplitude'], digits)} [{_fmt(r['amplitude_low'], digits)}, "
+               f"{_fmt(r['amplitude_high'], digits)}]")
+        clock = r["acrophase_reference"] == "clock"
+        ph = (f"{_clock(r['acrophase_h'])} [{_clock(r['acrophase_low'])}-"
+              f"{_clock(r['acrophase_high'])}]" if clock else
+              f"{_fmt(r['acrophase_h'], 1)} h [{_fmt(r['acrophase_low'], 1)}-"
+              f"{_fmt(r['acrophase_high'], 1)}]")
+        p = "n/a" if not np.isfinite(r["cosinor_p"]) else f"{r['cosinor_p']:.2g}"
+        lines.append(f"{name:<19} {_fmt(r['day_mean'], digits):>8} "
+                     f"{_fmt(r['night_mean'], digits):>8} {diff:>24} {_fmt(r['effect_size']):>6} "
+                     f"{_fmt(r['mesor'], digits):>8} {amp:>20} {ph:>21} {p:>8}")
+    return "\n".join(lines)

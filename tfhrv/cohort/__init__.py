@@ -1,0 +1,1 @@
+"""Many recordings on dask: manifest, resume, study table and group comparison."""

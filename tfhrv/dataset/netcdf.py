@@ -1,0 +1,88 @@
+"""Writing and reading the per-record DataTree (NetCDF4 with groups), atomically.
+
+The file is written to a temporary name in the destination folder and renamed into
+place only when complete (``os.replace`` is atomic on POSIX), so an error or a kill never
+leaves a half-written file under the final name.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import json
+import os
+import tempfile
+from pathlib import Path
+
+import xarray as xr
+
+from tfhrv.core.caution import CAUTION
+
+__all__ = ["CAUTION", "atomic_write", "file_sha256", "open_tree", "provenance", "write_tree"]
+
+
+_ENGINE = "h5netcdf"
+
+
+def file_sha256(path: str | Path) -> str:
+    """SHA-256 of a file's bytes (as stored, before decompression)."""
+    h = hashlib.sha256()
+    with Path(path).open("rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
+    """Root attributes: version, input, parameters as JSON, the calibration table's
+    SHA-256, creation time, caution."""
+    from tfhrv import __version__
+    from tfhrv.calibration.calibrate import table_sha256
+
+    attrs = {
+        "Conventions": "CF-1.10",
+        "title": "tfhrv time-resolved scaling analysis",
+        "tfhrv_version": __version__,
+        "source_file": "" if source is None else Path(source).name,
+        "source_sha256": "" if source is None or not Path(source).exists()
+        else file_sha256(source),
+        "parameters": json.dumps(parameters, sort_keys=True, default=str),
+        "calibration_table_sha256": table_sha256(),
+        "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
+        "caution": CAUTION,
+        "history": history,
+    }
+    return attrs
+
+
+def atomic_write(path: str | Path, write) -> Path:
+    """Call ``write(tmp_path)`` then rename the temporary file onto ``path``.
+
+    The temporary file lives in the same folder (same file system) and is removed if
+    ``write`` raises.
+    """
+    dest = Path(path)
+    dest.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{dest.name}.", suffix=".part", dir=dest.parent)
+    os.close(fd)
+    try:
+        write(Path(tmp))
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual file mode
+        os.replace(tmp, dest)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return dest
+
+
+def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
+    """Write a DataTree as NetCDF4 with groups, atomically."""
+    return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
+
+
+def open_tree(path: str | Path, /) -> xr.DataTree:
+    """Open a DataTree written by :func:`write_tree`, fully loaded into memory."""
+    with xr.open_datatree(path, engine=_ENGINE) as tree:
+        return tree.load()

@@ -1,0 +1,3 @@
+"""The beat series: the Recording type, NN extraction (cleaning) and even resampling.
+numpy/scipy only.
+"""

@@ -1,0 +1,3 @@
+"""Figures (matplotlib, imported lazily) and the self-contained HTML report, read from a scan
+file.
+"""

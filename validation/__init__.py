@@ -1,0 +1,1 @@
+"""Validation fixtures for scripts and tests (not shipped with the package)."""
