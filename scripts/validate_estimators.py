@@ -174,7 +174,7 @@ def cell(job: tuple) -> tuple:
                 for m_i, model in enumerate(MODELS):
                     cal = calibrate(raw, estimator=preset, n=nn.size, model=model,
                                     class_stat=stat)
-                    out[p_i, k, m_i, r] = (cal.raw_exponent, cal.exponent, cal.ci[0],
+                    out[p_i, k, m_i, r] = (cal.slope_exponent, cal.exponent, cal.ci[0],
                                            cal.ci[1], cal.n_obs)
     return job[:3], out, failures
 

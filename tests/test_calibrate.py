@@ -161,7 +161,7 @@ def test_calibrate_keeps_raw_and_marks_calibrated():
     fit = estimate("alpha2", _nn(fgn(N14, 0.6, rng=SEED0 + 300)))
     cal = calibrate(fit, estimator="alpha2")
     assert cal.calibrated and not fit.calibrated
-    assert cal.raw_exponent == fit.exponent
+    assert cal.slope_exponent == fit.exponent
     assert cal.exponent != fit.exponent  # the table's bias at alpha 0.6 is not exactly 0
     assert cal.options["calibration"] == "alpha2"
     assert cal.ci[0] < cal.exponent < cal.ci[1]
@@ -226,7 +226,7 @@ def test_out_of_range_raw_gives_nan_ends_not_numbers():
     far = calibrate(dataclasses.replace(fit, exponent=float(q_high.max()) + 0.5),
                     estimator="alpha2")
     assert np.isnan(far.ci[0]) and np.isnan(far.ci[1])
-    assert far.exponent == far.raw_exponent
+    assert far.exponent == far.slope_exponent
     low = calibrate(dataclasses.replace(fit, exponent=float(q_low.min()) - 0.5),
                     estimator="alpha2")
     assert np.isnan(low.ci[0]) and np.isnan(low.ci[1])
@@ -337,7 +337,7 @@ def test_dfa_order_has_its_own_table_and_other_wavelets_none():
     w4 = calibrate(estimate("beta_wavelet_long", x, vanishing_moments=4),
                    estimator="beta_wavelet_long")
     assert not w4.calibrated and all(np.isnan(w4.ci))
-    assert w4.exponent == w4.raw_exponent
+    assert w4.exponent == w4.slope_exponent
 
 
 def test_unknown_model_is_named():

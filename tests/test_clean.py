@@ -25,7 +25,7 @@ def test_ectopic_beat_removes_both_neighbouring_intervals():
     assert res.reason[20] == Reason.NON_SINUS_END
     assert res.reason[21] == Reason.NON_SINUS_START
     assert res.keep.sum() == len(rr) - 2
-    assert_allclose(res.quality.ectopic_share, 1 / len(rr))
+    assert_allclose(res.quality.ectopic_fraction, 1 / len(rr))
 
 
 def test_range_rule_and_relative_change_rule():
@@ -68,7 +68,7 @@ def test_quality_numbers_against_direct_computation(rng):
     nn = rr[res.keep]
     q = res.quality
     assert_allclose(q.nn_mean_ms, nn.mean())
-    assert_allclose(q.sdnn_ms, nn.std(ddof=1))
+    assert_allclose(q.nn_sd_ms, nn.std(ddof=1))
     pairs = res.keep[1:] & res.keep[:-1]
     assert_allclose(q.rmssd_ms, np.sqrt(np.mean(np.diff(rr)[pairs] ** 2)))
     assert_allclose(q.analysable_s, nn.sum() / 1000)

@@ -21,6 +21,7 @@ import pytest
 import xarray as xr
 from scipy import stats
 
+from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions
 from tfhrv.circadian.days import RhythmOptions
 from tfhrv.cli import main as cli_main
 from tfhrv.cohort.run import (
@@ -34,7 +35,6 @@ from tfhrv.cohort.run import (
     read_manifest,
     run_cohort,
 )
-from tfhrv.dataset.build import EXPONENTS, ScanOptions
 from tfhrv.synth import simulate_recording, write_recording_csv
 
 # Small, fast options: few surrogates and bootstrap resamples (the numbers are still the
@@ -147,7 +147,7 @@ def test_study_table_carries_tree_values(sequential, study_dir):
             np.testing.assert_allclose(row[name], float(rec[name]), rtol=0, atol=0)
             np.testing.assert_allclose([row[name + "_ci_lower"], row[name + "_ci_upper"]],
                                        rec[name + "_ci"].values, rtol=0, atol=0)
-        for name in ("sdnn_ms", "rmssd_ms", "coverage", "longest_gap_s"):
+        for name in ("nn_sd_ms", "rmssd_ms", "coverage", "longest_gap_s"):
             assert row[name] == float(rec[name])
         assert row["verdict"] == rec.attrs["verdict"]
     pooled = rhythm[(rhythm["day"] == "all") & (rhythm["variable"] == "alpha1")].iloc[0]
@@ -212,7 +212,7 @@ def test_killed_run_resumed_on_local_cluster(sequential, study_dir, tmp_path):
     code = textwrap.dedent(f"""
         from tfhrv.cohort.run import CohortOptions, run_cohort
         from tfhrv.circadian.days import RhythmOptions
-        from tfhrv.dataset.build import ScanOptions
+        from tfhrv.analysis.pipeline import ScanOptions
         opt = CohortOptions(scan=ScanOptions(n_surrogates=9), rhythm=RhythmOptions(n_boot=99),
                             n_boot=199)
         run_cohort({str(study_dir / 'manifest.csv')!r}, {str(out)!r}, workers=0, options=opt)

@@ -17,8 +17,8 @@ from numpy.testing import assert_allclose
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.estimators.dfa import (
     _box_basis,
-    alpha1,
-    alpha2,
+    alpha1_slope,
+    alpha2_slope,
     default_scales,
     dfa,
     dfa_fluctuation,
@@ -180,12 +180,12 @@ def test_fgn_alpha_matches_exact_table(hurst, order, fit_range, expected):
 
 def test_alpha1_white_noise_is_0583_not_05():
     # Source (a): REFERENCES 3.3, expected alpha1 (integer scales 4..16) = 0.583.
-    fits = [alpha1(np.random.default_rng(s).standard_normal(8192)) for s in range(24)]
+    fits = [alpha1_slope(np.random.default_rng(s).standard_normal(8192)) for s in range(24)]
     a = np.array([f.exponent for f in fits])
     assert abs(a.mean() - 0.5830) < mc_tol(a)
     assert fits[0].options["scales"] == tuple(range(4, 17))
     assert fits[0].fit_range == (4.0, 16.0) and fits[0].n_points == 13
-    a2 = np.array([alpha2(np.random.default_rng(s).standard_normal(2**14)).exponent
+    a2 = np.array([alpha2_slope(np.random.default_rng(s).standard_normal(2**14)).exponent
                    for s in range(24)])
     assert abs(a2.mean() - 0.5043) < mc_tol(a2)  # REFERENCES 3.3, 16..64
 
@@ -287,11 +287,11 @@ def test_validation_errors():
     with pytest.raises(ValueError, match="order"):
         dfa_fluctuation(x, order=4)
     with pytest.raises(ValueError, match="order"):
-        alpha1(x, order=0)
+        alpha1_slope(x, order=0)
     with pytest.raises(TypeError, match="order"):
         dfa(x, order=1.5)
     with pytest.raises(InsufficientDataError):
-        alpha2(x[:200])  # needs 4 * 64 beats
+        alpha2_slope(x[:200])  # needs 4 * 64 beats
     with pytest.raises(InsufficientDataError):
         dfa_fluctuation(x[:10])
     with pytest.raises(ValueError, match="scales"):
@@ -304,7 +304,7 @@ def test_validation_errors():
 
 def test_result_fields():
     x = fgn(4096, 0.6, rng=3)
-    fit = alpha1(x, order=2)
+    fit = alpha1_slope(x, order=2)
     assert fit.kind == "alpha" and fit.fit_units == "beats" and fit.method == "DFA-2"
     assert fit.used.sum() == fit.n_points == 13
     assert_allclose(10 ** fit.x[fit.used], np.arange(4, 17), rtol=1e-12)

@@ -258,13 +258,13 @@ def test_open_records_read_with_gaps_and_labels(open_rr):
         # plausibility: mean NN between 500 and 1200 ms (physiological range of adults)
         assert 500 < q.nn_mean_ms < 1200, row["record"]
         if row["group"] == "healthy" and row["database"] == "nsr2db":
-            sdnn_healthy_24h.append(q.sdnn_ms)
+            sdnn_healthy_24h.append(q.nn_sd_ms)
         if row["record"] == "chf216":
             # the open-data README: chf216 has an unreadable stretch of about two hours
             assert q.longest_gap_s > 1.5 * 3600
         if row["record"] == "chf206":
             # chf206 has frequent ectopy in the source annotations (V labels > 5 %)
-            assert q.ectopic_share > 0.05
+            assert q.ectopic_fraction > 0.05
     # Task Force 1996 Table 3 (from memory): 24-h SDNN 141 +/- 39 ms in healthy adults;
     # each healthy record within 2 SD of that mean.
     assert all(141 - 2 * 39 < s < 141 + 2 * 39 for s in sdnn_healthy_24h), sdnn_healthy_24h

@@ -18,8 +18,9 @@ import pytest
 import xarray as xr
 from numpy.testing import assert_allclose
 
+from tfhrv.analysis.pipeline import ScanOptions
 from tfhrv.analysis.windows import LONG
-from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.dataset.build import scan
 from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
 from tfhrv.viz import figures as plots
@@ -128,7 +129,7 @@ def test_spectrum_line_is_the_least_squares_fit(tree, figs):
     slope, icpt = np.polyfit(np.log10(pts.get_xdata()), np.log10(pts.get_ydata()), 1)
     lx, ly = np.log10(line.get_xdata()), np.log10(line.get_ydata())
     assert_allclose(ly, icpt + slope * lx, rtol=1e-9, atol=1e-9)
-    assert slope == pytest.approx(-float(rec["beta_spectral_raw"]), rel=1e-9)
+    assert slope == pytest.approx(-float(rec["beta_spectral_slope"]), rel=1e-9)
     # Task Force (1996) band limits 0.003, 0.04, 0.15, 0.4 Hz marked on the main panel
     limits = sorted({float(a.get_xdata()[0]) for a in ax.get_lines()
                      if a.get_gid() == "band_limit"})
@@ -227,7 +228,7 @@ def cosine_tree(*, with_clock: bool = True) -> xr.DataTree:
         coords["clock_hour"] = ("time", clock_h)
     short = xr.Dataset(
         {"alpha1": ("time", a1), "alpha1_ci": (("time", "bound"), np.c_[a1 - 0.1, a1 + 0.1]),
-         "coverage": ("time", np.ones(h.size)), "nn_mean": ("time", 800 + 0 * h),
+         "coverage": ("time", np.ones(h.size)), "nn_mean_ms": ("time", 800 + 0 * h),
          "stationarity": ("time", np.zeros(h.size, np.int8)),
          "estimator": ("time", np.ones(h.size, np.int8)),
          "local_alpha": (("time", "scale"), np.full((h.size, 3), np.nan))},

@@ -8,7 +8,7 @@ from tfhrv.analysis.policy import DECISION_TABLE, choose_estimator, explain_tabl
 from tfhrv.stationarity.battery import CATEGORIES
 
 GOOD = dict(duration_s=86400.0, band_hz=(1e-4, 1e-2), coverage=0.98, longest_gap_s=30.0,
-            ectopic_share=0.002, nonstationary_share=0.1, r_squared=0.97,
+            ectopic_fraction=0.002, nonstationary_share=0.1, r_squared=0.97,
             curvature_pvalue=0.4, lack_of_fit_pvalue=0.3, excess_scatter=0.0,
             beta_spectral=1.05, beta_wavelet=1.0)
 
@@ -41,7 +41,7 @@ def test_clean_record_is_fit():
     [
         ({"longest_gap_s": 2 * 3600.0}, "gap"),  # a two-hour unreadable stretch
         ({"coverage": 0.6}, "coverage"),
-        ({"ectopic_share": 0.2}, "ectopy"),
+        ({"ectopic_fraction": 0.2}, "ectopy"),
         ({"nonstationary_share": 0.8}, "stationarity"),
         ({"duration_s": 4 * 3600.0}, "duration"),
         ({"lack_of_fit_pvalue": 1e-5, "excess_scatter": 0.2}, "linearity"),

@@ -17,11 +17,12 @@ from html.parser import HTMLParser
 import pytest
 import xarray as xr
 
+from tfhrv.analysis.pipeline import ScanOptions
 from tfhrv.analysis.policy import DECISION_TABLE
 from tfhrv.analysis.windows import LONG
 from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
 from tfhrv.core.caution import CAUTION
-from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.dataset.build import scan
 from tfhrv.signal.clean import clean
 from tfhrv.synth import simulate_recording
 from tfhrv.viz.report import SECTIONS, build_report, write_report
@@ -122,13 +123,13 @@ def test_verdict_and_decision_table_from_the_tree(tree, doc):
     assert va["recommended_estimator"] in text
     for category, rule in DECISION_TABLE.items():
         assert category in text and rule.reason in text
-    assert f"{float(rec['sdnn_ms']):.1f} ms" in text
+    assert f"{float(rec['nn_sd_ms']):.1f} ms" in text
     assert f"{float(rec['alpha1']):.2f}" in text
 
 
 def test_rhythm_table_rows(tree, doc):
     text = " ".join(parse(doc).text)
-    assert "alpha1 (short)" in text and "nn_mean (short)" in text
+    assert "alpha1 (short)" in text and "nn_mean_ms (short)" in text
     assert "Day and night from" in text
 
 

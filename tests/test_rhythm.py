@@ -39,7 +39,7 @@ def test_clock_windows_give_the_known_directions(day_worker):
     _, tree = day_worker
     table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
     a1 = _row(table, "alpha1")
-    nn = _row(table, "nn_mean")
+    nn = _row(table, "nn_mean_ms")
     assert a1.period_source == "clock"
     # Ivanov et al. 1999: lower short-term exponent asleep; the generator's truth says
     # alpha1 about 0.90 asleep vs 1.12 awake.
@@ -59,7 +59,7 @@ def test_unknown_clock_uses_the_inferred_rest_period(day_worker):
     sim, _ = day_worker
     tree = scan(clean(sim.recording.with_start(None)))
     table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
-    nn = _row(table, "nn_mean")
+    nn = _row(table, "nn_mean_ms")
     assert nn.period_source == "inferred rest period"
     assert nn.acrophase_reference == "hours from start"
     assert nn.difference > 100  # the inferred block holds the longest intervals
@@ -75,7 +75,7 @@ def test_sleep_log_takes_precedence(day_worker, tmp_path):
     periods = read_sleep_log(log, tree.attrs["record_id"])
     assert periods == [(dt.datetime(2026, 3, 2, 23), dt.datetime(2026, 3, 3, 7))]
     table = rhythm_table(tree, options=RhythmOptions(n_boot=199), sleep_log=periods)
-    nn = _row(table, "nn_mean")
+    nn = _row(table, "nn_mean_ms")
     assert nn.period_source == "sleep log"
     assert np.isfinite(nn.difference) and nn.difference > 100
 

@@ -305,7 +305,7 @@ def test_input_validation(rng):
         beta_from_nn(np.arange(1.0, 101), np.full(100, 800.0), method="fft")
     with pytest.raises(ValueError, match="band must satisfy"):
         spectral_exponent(np.arange(1.0, 10), np.ones(9), band=(0.1, 0.01))
-    with pytest.raises(TypeError, match="nperseg must be an integer"):
+    with pytest.raises(TypeError, match="nperseg must be an int"):
         welch_psd(x, fs_hz=1.0, nperseg=50.0)
     with pytest.raises(ValueError, match="strictly increasing"):
         lomb_scargle_psd(np.array([0.0, 2.0, 1.0]), np.ones(3), frequency_hz=[0.1])

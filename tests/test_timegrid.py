@@ -12,8 +12,9 @@ import numpy as np
 import pytest
 import xarray as xr
 
+from tfhrv.analysis.pipeline import ScanOptions
 from tfhrv.analysis.windows import LONG, TierSpec, window_starts
-from tfhrv.dataset.build import ScanOptions, scan
+from tfhrv.dataset.build import scan
 from tfhrv.dataset.netcdf import open_tree, write_tree
 from tfhrv.signal.clean import clean
 from tfhrv.signal.recording import Recording
@@ -72,7 +73,7 @@ def test_layout_and_cf_attributes(small_tree):
     tree = small_tree
     assert set(tree.children) == {"nn", "short", "long", "record"}
     short = tree["/short"].to_dataset()
-    for name in ("nn_mean", "psd", "band_power", "fluctuation", "local_alpha", "alpha1",
+    for name in ("nn_mean_ms", "psd", "band_power", "fluctuation", "local_alpha", "alpha1",
                  "alpha1_ci", "beta_wavelet", "exponent", "exponent_ci", "stationarity",
                  "estimator", "reason", "adf_stat", "kpss_pvalue", "drift_pvalue"):
         assert name in short, name
@@ -195,7 +196,7 @@ def test_calibration_model_is_recorded_and_used():
         assert json.loads(tree.attrs["parameters"])["scan"]["calibration_model"] == model
         assert tree.attrs["calibration_table_sha256"] == table_sha256()
         out[model] = float(tree["/record"]["alpha1"])
-    raw = float(tree["/record"]["alpha1_raw"])
+    raw = float(tree["/record"]["alpha1_slope"])
     assert abs(raw - 1.5) < 0.05  # DFA-1 of a random walk at 4-16 beats: about 1.5
     assert abs(out["fgn-fbm"] - 1.5) < 0.03
     assert out["powerlaw"] < out["fgn-fbm"] - 0.02

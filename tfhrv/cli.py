@@ -61,6 +61,15 @@ def _add_scan_options(p: argparse.ArgumentParser) -> None:
                    help="model of the calibrated intervals: 'powerlaw' (fGn below alpha 1, "
                    "1/f^beta noise above; default) or 'fgn-fbm' (fGn below, fBm above, the "
                    "class read at the longest scales)")
+    g = p.add_argument_group("FFT-slope fitness thresholds (unfit beyond these)")
+    g.add_argument("--max-gap", type=float, default=30.0,
+                   help="longest unreadable stretch, min (30; common practice)")
+    g.add_argument("--min-coverage", type=float, default=75.0,
+                   help="analysable share, %% (75; Task Force 1996 asks for 18 of 24 h)")
+    g.add_argument("--max-ectopic", type=float, default=10.0,
+                   help="non-sinus beats, %% (10; common practice)")
+    g.add_argument("--max-nonstationary", type=float, default=50.0,
+                   help="non-stationary long windows, %% (50; common practice)")
 
 
 def _read(args: argparse.Namespace):
@@ -77,7 +86,7 @@ def _read(args: argparse.Namespace):
 
 def _cmd_inspect(args: argparse.Namespace) -> int:
     from tfhrv.analysis.inspection import format_inspection, inspect_record, inspection_dict
-    from tfhrv.analysis.policy import FitnessThresholds, explain_table
+    from tfhrv.analysis.policy import explain_table
     from tfhrv.signal.clean import clean
 
     if args.explain:
@@ -87,10 +96,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
         print()
     if args.recording is None:
         raise ValueError("inspect needs a recording file (or --explain alone)")
-    thresholds = FitnessThresholds(
-        max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
-        max_ectopic=args.max_ectopic / 100.0, max_nonstationary=args.max_nonstationary / 100.0)
-    ins = inspect_record(clean(_read(args)), thresholds=thresholds)
+    ins = inspect_record(clean(_read(args)), options=_scan_options(args))
     if args.json:
         print(json.dumps(inspection_dict(ins), indent=2, default=float))
     else:
@@ -101,14 +107,18 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
 def _scan_options(args: argparse.Namespace):
     from dataclasses import replace
 
+    from tfhrv.analysis.pipeline import ScanOptions
+    from tfhrv.analysis.policy import FitnessThresholds
     from tfhrv.analysis.windows import LONG, SHORT
-    from tfhrv.dataset.build import ScanOptions
 
+    thresholds = FitnessThresholds(
+        max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
+        max_ectopic=args.max_ectopic / 100.0, max_nonstationary=args.max_nonstationary / 100.0)
     return ScanOptions(
         short=replace(SHORT, window_s=args.short_window * 60.0, hop_s=args.short_hop * 60.0),
         long=replace(LONG, window_s=args.long_window * 3600.0, hop_s=args.long_hop * 3600.0),
         dfa_order=args.dfa_order, vanishing_moments=args.vanishing_moments,
-        calibration_model=args.calibration,
+        calibration_model=args.calibration, thresholds=thresholds,
     )
 
 
@@ -224,7 +234,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     import tfhrv
-    from tfhrv.dataset.build import ScanOptions
+    from tfhrv.analysis.pipeline import ScanOptions
     from tfhrv.dataset.netcdf import atomic_write, write_tree
     from tfhrv.io.readers import read_recording
     from tfhrv.viz.report import write_report
@@ -298,15 +308,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the same as JSON")
     p.add_argument("--explain", action="store_true",
                    help="print the estimator decision table")
-    g = p.add_argument_group("FFT-slope fitness thresholds (unfit beyond these)")
-    g.add_argument("--max-gap", type=float, default=30.0,
-                   help="longest unreadable stretch, min (30; common practice)")
-    g.add_argument("--min-coverage", type=float, default=75.0,
-                   help="analysable share, %% (75; Task Force 1996 asks for 18 of 24 h)")
-    g.add_argument("--max-ectopic", type=float, default=10.0,
-                   help="non-sinus beats, %% (10; common practice)")
-    g.add_argument("--max-nonstationary", type=float, default=50.0,
-                   help="non-stationary long windows, %% (50; common practice)")
+    _add_scan_options(p)
     _add_reader_options(p)
     p.set_defaults(func=_cmd_inspect)
 

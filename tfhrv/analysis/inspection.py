@@ -11,61 +11,53 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tfhrv.analysis.policy import FitnessThresholds, RecordAssessment, assess_record
-from tfhrv.analysis.windows import (
-    LONG,
-    SHORT,
-    TierSpec,
-    category_codes,
-    tier_stationarity,
-    tier_windows,
-)
+from tfhrv.analysis.pipeline import RecordAnalysis, ScanOptions, analyse_record
+from tfhrv.analysis.policy import RecordAssessment
 from tfhrv.signal.clean import CleanResult
-from tfhrv.stationarity.battery import CATEGORIES
 
 __all__ = ["Inspection", "format_inspection", "inspect_record", "inspection_dict"]
 
 
 @dataclass(frozen=True, slots=True)
 class Inspection:
-    """Quality, per-tier stationarity category counts and the whole-record assessment."""
+    """Quality, per-tier stationarity category counts and the whole-record assessment.
 
-    cleaned: CleanResult
-    tiers: dict
-    assessment: RecordAssessment
+    A view of :class:`~tfhrv.analysis.pipeline.RecordAnalysis` (``analysis``) run with
+    ``detail="battery"``: the same battery, categories and verdict that a scan computes.
+    """
+
+    analysis: RecordAnalysis
+
+    @property
+    def cleaned(self) -> CleanResult:
+        """The cleaned recording."""
+        return self.analysis.cleaned
+
+    @property
+    def assessment(self) -> RecordAssessment:
+        """Whole-record exponents and the FFT-slope verdict."""
+        return self.analysis.assessment
+
+    @property
+    def tiers(self) -> dict:
+        """Per tier: window length and hop (s), number of windows, counts per category."""
+        return {name: {"window_s": t.spec.window_s, "hop_s": t.spec.hop_s,
+                       "n_windows": len(t.windows), "categories": t.category_counts()}
+                for name, t in (("short", self.analysis.short), ("long", self.analysis.long))}
 
 
-def inspect_record(
-    cleaned: CleanResult,
-    /,
-    *,
-    short: TierSpec = SHORT,
-    long: TierSpec = LONG,
-    thresholds: FitnessThresholds | None = None,
-    n_surrogates: int = 99,
-    seed: int = 20100819,
-) -> Inspection:
-    """Run the stationarity battery on every window of both tiers and judge the record."""
-    tiers = {}
-    codes_long = None
-    for name, tier in (("short", short), ("long", long)):
-        results = tier_stationarity(tier_windows(cleaned, tier), n_surrogates=n_surrogates,
-                                    seed=seed)
-        codes = category_codes(results)
-        tiers[name] = {"window_s": tier.window_s, "hop_s": tier.hop_s, "n_windows": len(codes),
-                       "categories": {c: int(np.sum(codes == i))
-                                      for i, c in enumerate(CATEGORIES)}}
-        if name == "long":
-            codes_long = codes
-    assessment = assess_record(cleaned, long_categories=codes_long, thresholds=thresholds)
-    return Inspection(cleaned, tiers, assessment)
+def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None
+                   ) -> Inspection:
+    """Run the stationarity battery on every window of both tiers and judge the record
+    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``)."""
+    return Inspection(analyse_record(cleaned, options=options, detail="battery"))
 
 
 def _fit_dict(fit) -> dict | None:
     if fit is None:
         return None
     return {"value": fit.exponent, "ci": list(fit.ci), "se": fit.se,
-            "raw": fit.raw_exponent, "kind": fit.kind, "n_obs": fit.n_obs,
+            "slope": fit.slope_exponent, "kind": fit.kind, "n_obs": fit.n_obs,
             "fit_range": list(fit.fit_range), "fit_units": fit.fit_units}
 
 
@@ -135,10 +127,10 @@ def format_inspection(ins: Inspection, /) -> str:
         f"intervals     {q.n_intervals:,} read, {q.n_kept:,} kept as NN "
         f"({100 * q.share_kept:.1f} %)",
         f"removed       {removed}",
-        f"ectopy        {100 * q.ectopic_share:.2f} % of beats labelled non-sinus",
+        f"ectopy        {100 * q.ectopic_fraction:.2f} % of beats labelled non-sinus",
         f"gaps          {q.n_gaps} uncovered stretches >= {cleaned.options.gap_min_s:g} s; "
         f"longest {_hms(q.longest_gap_s)}",
-        f"NN            mean {q.nn_mean_ms:.0f} ms, SDNN {q.sdnn_ms:.0f} ms, "
+        f"NN            mean {q.nn_mean_ms:.0f} ms, SDNN {q.nn_sd_ms:.0f} ms, "
         f"RMSSD {q.rmssd_ms:.0f} ms",
         f"coverage      per hour |{_hour_bar(q.hourly_coverage)}|  (# full, blank empty)",
     ]
@@ -165,7 +157,7 @@ def format_inspection(ins: Inspection, /) -> str:
                                              _exp(f["alpha2"], "alpha2"),
                                              _exp(f["alpha_long"], "alpha long")]))
     lines.append(" " * 14 + "(bias-corrected values with calibrated 95 % intervals)")
-    slopes = [f"{label} {f[key].raw_exponent:.2f}" for key, label in (
+    slopes = [f"{label} {f[key].slope_exponent:.2f}" for key, label in (
         ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
         ("alpha2", "alpha2"), ("alpha_long", "alpha long")) if f[key] is not None]
     if slopes:

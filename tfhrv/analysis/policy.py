@@ -6,7 +6,6 @@ the report print it from :data:`DECISION_TABLE`.
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Literal
@@ -30,6 +29,7 @@ __all__ = [
     "ESTIMATORS",
     "Choice",
     "FitnessThresholds",
+    "VERDICTS",
     "Verdict",
     "choose_estimator",
     "explain_table",
@@ -39,6 +39,8 @@ __all__ = [
 Estimator = Literal["spectral", "wavelet", "dfa", "none"]
 #: Estimator codes in the order used for ``flag_values`` in the DataTree.
 ESTIMATORS: tuple[str, ...] = ("none", "spectral", "wavelet", "dfa")
+#: Verdict codes in the order used for ``flag_values`` in the DataTree.
+VERDICTS: tuple[str, ...] = ("fit", "fit-with-cautions", "unfit")
 
 
 @dataclass(frozen=True, slots=True)
@@ -226,7 +228,7 @@ def fitness_verdict(
     band_hz: tuple[float, float],
     coverage: float,
     longest_gap_s: float,
-    ectopic_share: float,
+    ectopic_fraction: float,
     nonstationary_share: float,
     r_squared: float,
     curvature_pvalue: float,
@@ -246,7 +248,7 @@ def fitness_verdict(
     Examples
     --------
     >>> v = fitness_verdict(duration_s=86400, band_hz=(1e-4, 1e-2), coverage=0.98,
-    ...     longest_gap_s=20, ectopic_share=0.001, nonstationary_share=0.1, r_squared=0.97,
+    ...     longest_gap_s=20, ectopic_fraction=0.001, nonstationary_share=0.1, r_squared=0.97,
     ...     curvature_pvalue=0.3, lack_of_fit_pvalue=0.4, excess_scatter=0.0,
     ...     beta_spectral=1.05, beta_wavelet=1.0)
     >>> v.verdict
@@ -283,9 +285,10 @@ def fitness_verdict(
           f"(> {th.max_gap_s / 60:.0f} min)",
           f"gap: longest unreadable stretch {longest_gap_s / 60:.0f} min "
           f"(> {th.caution_gap_s / 60:.0f} min)")
-    grade(ectopic_share, th.max_ectopic, th.caution_ectopic,
-          f"ectopy: {100 * ectopic_share:.1f} % non-sinus beats (> {100 * th.max_ectopic:.0f} %)",
-          f"ectopy: {100 * ectopic_share:.1f} % non-sinus beats "
+    grade(ectopic_fraction, th.max_ectopic, th.caution_ectopic,
+          f"ectopy: {100 * ectopic_fraction:.1f} % non-sinus beats "
+          f"(> {100 * th.max_ectopic:.0f} %)",
+          f"ectopy: {100 * ectopic_fraction:.1f} % non-sinus beats "
           f"(> {100 * th.caution_ectopic:.0f} %); removed and interpolated")
     grade(nonstationary_share, th.max_nonstationary, th.caution_nonstationary,
           f"stationarity: {100 * nonstationary_share:.0f} % of long windows non-stationary "
@@ -322,7 +325,7 @@ def fitness_verdict(
         "cycles_of_lowest_frequency": cycles,
         "coverage": coverage,
         "longest_gap_s": longest_gap_s,
-        "ectopic_share": ectopic_share,
+        "ectopic_fraction": ectopic_fraction,
         "nonstationary_share": nonstationary_share,
         "r_squared": r_squared,
         "lack_of_fit_pvalue": lack_of_fit_pvalue,
@@ -345,14 +348,14 @@ def calibrated_fit(preset: str, nn_ms: np.ndarray, /, *, beat_time_s: np.ndarray
     ``calibration_model`` (:mod:`tfhrv.calibration.calibrate`; ``class_stat`` is computed
     from ``nn_ms`` when the model needs it and none is given).
 
-    Returns None when the series cannot support the preset (too short, constant, ...).
+    Returns None when the series cannot support the preset (the estimator raised
+    :class:`~tfhrv.core.errors.InsufficientDataError`: too short, too few scales, constant);
+    every other error propagates.
     """
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)
-            raw = estimate(preset, nn_ms, beat_time_s=beat_time_s, order=order,
-                           vanishing_moments=vanishing_moments)
-    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+        raw = estimate(preset, nn_ms, beat_time_s=beat_time_s, order=order,
+                       vanishing_moments=vanishing_moments)
+    except InsufficientDataError:
         return None
     if not np.isfinite(raw.exponent):
         return None
@@ -378,11 +381,9 @@ def calibrated_fits(presets: dict[str, str], nn_ms: np.ndarray, /, *,
     raw_dfa: dict = {}
     fl = None
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)
-            raw_dfa, fl = estimate_dfa(tuple(dfa_names.values()), nn_ms, order=order,
-                                       extra_scales=dfa_scales)
-    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+        raw_dfa, fl = estimate_dfa(tuple(dfa_names.values()), nn_ms, order=order,
+                                   extra_scales=dfa_scales)
+    except InsufficientDataError:
         pass
     out: dict[str, ScalingFit | None] = {}
     n = int(np.size(nn_ms))
@@ -463,7 +464,7 @@ def assess_record(
 
     verdict = fitness_verdict(
         duration_s=q.recorded_s, band_hz=band_hz, coverage=q.coverage,
-        longest_gap_s=q.longest_gap_s, ectopic_share=q.ectopic_share,
+        longest_gap_s=q.longest_gap_s, ectopic_fraction=q.ectopic_fraction,
         nonstationary_share=nonstat,
         r_squared=spec.r_squared if spec is not None else float("nan"),
         curvature_pvalue=spec.curvature_pvalue if spec is not None else float("nan"),

@@ -101,7 +101,7 @@ def class_statistic(nn_ms: np.ndarray, /) -> float:
         return float("nan")
     try:
         return float(dfa(x, fit_range=class_range(x.size), order=1).exponent)
-    except (InsufficientDataError, ValueError, np.linalg.LinAlgError):
+    except InsufficientDataError:
         return float("nan")
 
 
@@ -372,7 +372,7 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
     -------
     ScalingFit
         A copy with ``exponent`` bias-corrected, ``se`` and ``ci`` calibrated,
-        ``raw_exponent`` the uncorrected value and ``calibrated=True``; ``options`` record
+        ``slope_exponent`` the uncorrected value and ``calibrated=True``; ``options`` record
         the table, the model and the class used.  When the raw value lies outside the
         tabulated range the interval end that cannot be found is NaN and the exponent is
         left uncorrected.  When no table was simulated for the fit's options (wavelet
@@ -415,7 +415,7 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
         ok = np.isfinite(sd)
         se = float(np.interp(est, truth[ok], sd[ok])) / local
     return dataclasses.replace(
-        fit, exponent=est, se=se, ci=(lo, hi), raw_exponent=raw, calibrated=True,
+        fit, exponent=est, se=se, ci=(lo, hi), slope_exponent=raw, calibrated=True,
         options={**dict(fit.options), "calibration": name, "calibration_model": model,
                  "calibration_class": cls},
     )

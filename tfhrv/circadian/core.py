@@ -13,7 +13,14 @@ import numpy as np
 from scipy import optimize, special, stats
 
 from tfhrv.core.errors import InsufficientDataError
-from tfhrv.core.validation import as_1d_float, check_choice, check_positive, readonly
+from tfhrv.core.validation import (
+    as_1d_float,
+    check_choice,
+    check_int,
+    check_positive,
+    check_unit_interval,
+    readonly,
+)
 
 __all__ = [
     "Contrast",
@@ -317,37 +324,17 @@ def cosinor(
             f"t_hours and y must have the same length, got {t_all.size} and {y_all.size}"
         )
     tau = check_positive(period_hours, "period_hours")
-    if isinstance(harmonics, bool) or not isinstance(harmonics, int | np.integer):
-        raise TypeError(f"harmonics must be an int, got {harmonics!r}")
-    h = int(harmonics)
-    if h < 1:
-        raise ValueError(f"harmonics must be >= 1, got {harmonics!r}")
+    h = check_int(harmonics, "harmonics", minimum=1)
     alpha = _check_alpha(alpha)
     check_choice(ci_method, "ci_method", ("delta", "ellipse"))
 
     keep = np.isfinite(t_all) & np.isfinite(y_all)
     t, yy = t_all[keep], y_all[keep]
     n, p = t.size, 2 * h + 1
-    if n < p + 1:
-        raise InsufficientDataError(
-            f"cosinor with harmonics={h} needs at least {p + 1} finite samples, got {n}"
-        )
-    x = _design(t, tau, h)
-    q, r = np.linalg.qr(x)
-    rdiag = np.abs(np.diag(r))
-    if rdiag.min() <= 1e-10 * rdiag.max() * np.sqrt(n):
-        raise InsufficientDataError(
-            "the sample times do not determine the cosinor model (too few distinct phases)"
-        )
-    coef = np.linalg.solve(r, q.T @ yy)
-    resid = yy - x @ coef
-    rss = float(resid @ resid)
-    tss = float(np.sum((yy - yy.mean()) ** 2))
+    coef, cov, rss, tss = _least_squares(_design(t, tau, h), yy, harmonics=h)
     mss = max(tss - rss, 0.0)
     df_model, df_resid = 2 * h, n - p
     s2 = rss / df_resid
-    rinv = np.linalg.inv(r)
-    cov = s2 * (rinv @ rinv.T)
     if rss > 0:
         f_stat = (mss / df_model) / s2
         f_p = float(stats.f.sf(f_stat, df_model, df_resid))
@@ -411,6 +398,31 @@ def cosinor(
     )
 
 
+
+def _least_squares(x: np.ndarray, y: np.ndarray, *, harmonics: int
+                   ) -> tuple[np.ndarray, np.ndarray, float, float]:
+    """Ordinary least squares by QR: coefficients, their covariance, residual and total
+    sums of squares.  Raises InsufficientDataError when the design does not determine the
+    model (too few samples or too few distinct phases)."""
+    n, p = x.shape
+    if n < p + 1:
+        raise InsufficientDataError(
+            f"cosinor with harmonics={harmonics} needs at least {p + 1} finite samples, "
+            f"got {n}"
+        )
+    q, r = np.linalg.qr(x)
+    rdiag = np.abs(np.diag(r))
+    if rdiag.min() <= 1e-10 * rdiag.max() * np.sqrt(n):
+        raise InsufficientDataError(
+            "the sample times do not determine the cosinor model (too few distinct phases)"
+        )
+    coef = np.linalg.solve(r, q.T @ y)
+    resid = y - x @ coef
+    rss = float(resid @ resid)
+    tss = float(np.sum((y - y.mean()) ** 2))
+    rinv = np.linalg.inv(r)
+    return coef, (rss / (n - p)) * (rinv @ rinv.T), rss, tss
+
 def _composite(
     coef: np.ndarray, cov: np.ndarray, tau: float, h: int, tq: float, significant: bool
 ) -> tuple[float, float, float, tuple[float, float], tuple[float, float]]:
@@ -436,9 +448,7 @@ def _composite(
 
 
 def _check_alpha(alpha: float) -> float:
-    a = check_positive(alpha, "alpha")
-    if not a < 1.0:
-        raise ValueError(f"alpha must be in (0, 1), got {alpha!r}")
+    a = check_unit_interval(alpha, "alpha")
     return a
 
 
@@ -589,8 +599,7 @@ def night_day_contrast(
     if valid is not None:
         ok &= _as_mask(valid, "valid", t.size)
     block_hours = check_positive(block_hours, "block_hours")
-    if isinstance(n_boot, bool) or not isinstance(n_boot, int | np.integer) or n_boot < 1:
-        raise ValueError(f"n_boot must be a positive int, got {n_boot!r}")
+    n_boot = check_int(n_boot, "n_boot", minimum=1)
     alpha = _check_alpha(alpha)
     gen = np.random.default_rng(rng)
 
@@ -724,9 +733,7 @@ def _rest_inputs(
             f"t_hours and nn_mean_ms must have the same length, got {t.size} and {v.size}"
         )
     length = check_positive(length_hours, "length_hours")
-    cov = check_positive(min_coverage, "min_coverage")
-    if cov > 1.0:
-        raise ValueError(f"min_coverage must be in (0, 1], got {min_coverage!r}")
+    cov = check_unit_interval(min_coverage, "min_coverage", closed_high=True)
     order = np.argsort(t, kind="stable")
     t, v = t[order], v[order]
     spacing = _median_spacing(t)

@@ -34,8 +34,8 @@ VARIABLES: tuple[tuple[str, str], ...] = (
     ("short", "exponent"),
     ("long", "alpha_long"),
     ("long", "exponent"),
-    ("short", "nn_mean"),
-    ("short", "nn_sd"),
+    ("short", "nn_mean_ms"),
+    ("short", "nn_sd_ms"),
     ("short", "lf_power"),
     ("short", "hf_power"),
 )
@@ -155,7 +155,7 @@ def _periods(tree: xr.DataTree, tier: str, opt: RhythmOptions, sleep_log):
         day = _in_window(clock_h, opt.day_hours)
         source = "clock"
     else:
-        nn = tree["/short"]["nn_mean"].values
+        nn = tree["/short"]["nn_mean_ms"].values
         t_short = tree["/short"]["elapsed"].values / 3600.0
         start_h = float(tree["/short"]["clock_hour"].values[0] - t_short[0]) % 24 if (
             "clock_hour" in tree["/short"].coords) else 0.0
@@ -334,7 +334,7 @@ def format_rhythm(table: pd.DataFrame, /) -> str:
     lines = [f"day/night from: {pooled['period_source'].iloc[0]}; acrophase as "
              f"{pooled['acrophase_reference'].iloc[0]}", head, "-" * len(head)]
     for _, r in pooled.iterrows():
-        digits = 0 if r["variable"] in ("nn_mean", "nn_sd", "lf_power", "hf_power") else 2
+        digits = 0 if r["variable"] in ("nn_mean_ms", "nn_sd_ms", "lf_power", "hf_power") else 2
         name = f"{r['variable']} ({r['tier']})"
         diff = (f"{_fmt(r['difference'], digits)} [{_fmt(r['difference_low'], digits)}, "
                 f"{_fmt(r['difference_high'], digits)}]")

@@ -34,10 +34,10 @@ __all__ = [
 
 #: Column suffixes left out of the group comparison: interval bounds and p-values are not
 #: measurements, acrophases are circular (a linear rank test does not apply), and the slopes
-#: before calibration (``*_raw``) order the records almost as the calibrated values do (the
+#: before calibration (``*_slope``) order the records almost as the calibrated values do (the
 #: calibration is monotone at a given length), so a rank test of
 #: them repeats the same comparison and would only inflate the multiple-testing family.
-NOT_COMPARED = ("_ci_lower", "_ci_upper", "_cosinor_p", "_acrophase_h", "_raw")
+NOT_COMPARED = ("_ci_lower", "_ci_upper", "_cosinor_p", "_acrophase_h", "_slope")
 BIN_MINUTES = 5
 
 # ------------------------------------------------------------------------ statistics

@@ -67,6 +67,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions
 from tfhrv.circadian.days import (
     VARIABLES,
     RhythmOptions,
@@ -87,7 +88,7 @@ from tfhrv.cohort.outputs import (
     write_zarr,
 )
 from tfhrv.core.errors import RecordFormatError
-from tfhrv.dataset.build import EXPONENTS, ScanOptions, scan
+from tfhrv.dataset.build import scan
 from tfhrv.dataset.netcdf import atomic_write, file_sha256, write_tree
 from tfhrv.io.readers import parse_start, read_recording
 from tfhrv.signal.clean import CleanOptions, clean
@@ -116,7 +117,7 @@ __all__ = [
 STAGES = ("read", "clean", "scan", "rhythm", "write", "report", "worker")
 RECORDING_SUFFIXES = (".csv", ".csv.gz", ".txt", ".txt.gz", ".tsv", ".tsv.gz", ".rr",
                       ".rr.gz", ".edf")
-QUALITY = ("coverage", "ectopic_share", "longest_gap_s", "nn_mean_ms", "sdnn_ms", "rmssd_ms",
+QUALITY = ("coverage", "ectopic_fraction", "longest_gap_s", "nn_mean_ms", "nn_sd_ms", "rmssd_ms",
            "recorded_h")
 _SUMMARY_ATTR = "cohort_summary"
 
@@ -405,7 +406,7 @@ def study_row(tree: xr.DataTree, /) -> dict:
         row[name] = _scalar(rec, name)
         ci = rec[name + "_ci"].values if name + "_ci" in rec else (np.nan, np.nan)
         row[name + "_ci_lower"], row[name + "_ci_upper"] = float(ci[0]), float(ci[1])
-        row[name + "_raw"] = _scalar(rec, name + "_raw")
+        row[name + "_slope"] = _scalar(rec, name + "_slope")
     table = (tree["/rhythm"].to_dataset().to_dataframe() if "rhythm" in tree.children
              else pd.DataFrame(columns=["tier", "variable", "day"]))
     pooled = table[table["day"].astype(str) == "all"]

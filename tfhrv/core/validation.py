@@ -9,7 +9,8 @@ import numpy as np
 
 from tfhrv.core.errors import InsufficientDataError
 
-__all__ = ["as_1d_float", "check_choice", "check_positive", "check_range", "readonly"]
+__all__ = ["as_1d_float", "check_choice", "check_int", "check_positive", "check_range",
+           "check_unit_interval", "readonly"]
 
 
 def as_1d_float(x: Any, name: str, *, min_len: int = 1, finite: bool = True) -> np.ndarray:
@@ -54,6 +55,26 @@ def check_positive(value: Any, name: str, *, strict: bool = True) -> float:
     if not np.isfinite(v) or v < 0 or (strict and v == 0):
         kind = "> 0" if strict else ">= 0"
         raise ValueError(f"{name} must be finite and {kind}, got {value!r}")
+    return v
+
+
+def check_int(value: Any, name: str, *, minimum: int | None = None) -> int:
+    """Return ``value`` as int if it is an integer (not a bool) and at least ``minimum``."""
+    if isinstance(value, bool) or not isinstance(value, int | np.integer):
+        raise TypeError(f"{name} must be an int, got {value!r}")
+    if minimum is not None and value < minimum:
+        raise ValueError(f"{name} must be >= {minimum}, got {value!r}")
+    return int(value)
+
+
+def check_unit_interval(value: Any, name: str, *, closed_high: bool = False) -> float:
+    """Return ``value`` as float if it lies in (0, 1) (or (0, 1] with ``closed_high``)."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError) as exc:
+        raise TypeError(f"{name} must be a number, got {value!r}") from exc
+    if not (0.0 < v < 1.0 or (closed_high and v == 1.0)):
+        raise ValueError(f"{name} must be in (0, 1{']' if closed_high else ')'}, got {value!r}")
     return v
 
 

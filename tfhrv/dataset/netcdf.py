@@ -7,18 +7,14 @@ leaves a half-written file under the final name.
 
 from __future__ import annotations
 
-import datetime as dt
 import hashlib
-import json
 import os
 import tempfile
 from pathlib import Path
 
 import xarray as xr
 
-from tfhrv.core.caution import CAUTION
-
-__all__ = ["CAUTION", "atomic_write", "file_sha256", "open_tree", "provenance", "write_tree"]
+__all__ = ["atomic_write", "file_sha256", "open_tree", "write_tree"]
 
 
 _ENGINE = "h5netcdf"
@@ -31,28 +27,6 @@ def file_sha256(path: str | Path) -> str:
         for chunk in iter(lambda: fh.read(1 << 20), b""):
             h.update(chunk)
     return h.hexdigest()
-
-
-def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
-    """Root attributes: version, input, parameters as JSON, the calibration table's
-    SHA-256, creation time, caution."""
-    from tfhrv import __version__
-    from tfhrv.calibration.calibrate import table_sha256
-
-    attrs = {
-        "Conventions": "CF-1.10",
-        "title": "tfhrv time-resolved scaling analysis",
-        "tfhrv_version": __version__,
-        "source_file": "" if source is None else Path(source).name,
-        "source_sha256": "" if source is None or not Path(source).exists()
-        else file_sha256(source),
-        "parameters": json.dumps(parameters, sort_keys=True, default=str),
-        "calibration_table_sha256": table_sha256(),
-        "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
-        "caution": CAUTION,
-        "history": history,
-    }
-    return attrs
 
 
 def atomic_write(path: str | Path, write) -> Path:
@@ -82,7 +56,15 @@ def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
     return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
 
 
-def open_tree(path: str | Path, /) -> xr.DataTree:
-    """Open a DataTree written by :func:`write_tree`, fully loaded into memory."""
+def open_tree(path: str | Path, /, *, check: bool = True) -> xr.DataTree:
+    """Open a scan file written by :func:`write_tree`, fully loaded into memory.
+
+    With ``check`` (default) the tree is validated against :mod:`tfhrv.dataset.schema`;
+    a file that is not a tfhrv scan file raises :class:`~tfhrv.dataset.schema.SchemaError`
+    naming the file and what is missing.
+    """
+    from tfhrv.dataset.schema import validate
+
     with xr.open_datatree(path, engine=_ENGINE) as tree:
-        return tree.load()
+        loaded = tree.load()
+    return validate(loaded, path=str(path)) if check else loaded

@@ -21,8 +21,8 @@ from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 __all__ = [
     "Fluctuation",
     "LocalSlopes",
-    "alpha1",
-    "alpha2",
+    "alpha1_slope",
+    "alpha2_slope",
     "default_scales",
     "dfa",
     "dfa_fluctuation",
@@ -331,7 +331,7 @@ def dfa_fluctuation(
     order = _check_order(order)
     x = as_1d_float(x, "x", min_len=4 * (_min_scale(order) + 1))
     if np.ptp(x) == 0:
-        raise ValueError("x must not be constant")
+        raise InsufficientDataError("x must not be constant (no fluctuation to scale)")
     s = default_scales(x.size, order=order) if scales is None else _validate_scales(
         scales, x.size, order
     )
@@ -515,29 +515,31 @@ def dfa_ranges(
     return fits, fl
 
 
-def alpha1(x: np.ndarray, /, *, order: int = 1) -> ScalingFit:
-    """Short-term DFA exponent alpha1: every integer box size 4..16 beats (Peng et al. 1995).
+def alpha1_slope(x: np.ndarray, /, *, order: int = 1) -> ScalingFit:
+    """Short-term DFA slope alpha1: every integer box size 4..16 beats (Peng et al. 1995).
 
-    See :func:`dfa`.
+    The slope of the fitted line, before calibration (the ``alpha1_slope`` of a scan file);
+    the scan file's ``alpha1`` is this value bias-corrected by
+    :func:`tfhrv.calibration.calibrate.calibrate`.  See :func:`dfa`.
 
     Examples
     --------
     >>> rng = np.random.default_rng(5)
-    >>> bool(abs(alpha1(rng.standard_normal(20000)).exponent - 0.583) < 0.03)
+    >>> bool(abs(alpha1_slope(rng.standard_normal(20000)).exponent - 0.583) < 0.03)
     True
     """
     return dfa(x, fit_range=ALPHA1_RANGE, order=order)
 
 
-def alpha2(x: np.ndarray, /, *, order: int = 1) -> ScalingFit:
-    """Intermediate DFA exponent alpha2: every integer box size 16..64 beats (Peng et al. 1995).
+def alpha2_slope(x: np.ndarray, /, *, order: int = 1) -> ScalingFit:
+    """Intermediate DFA slope alpha2: every integer box size 16..64 beats (Peng et al. 1995).
 
-    See :func:`dfa`.
+    Before calibration, like :func:`alpha1_slope`.  See :func:`dfa`.
 
     Examples
     --------
     >>> rng = np.random.default_rng(6)
-    >>> bool(abs(alpha2(rng.standard_normal(20000)).exponent - 0.504) < 0.05)
+    >>> bool(abs(alpha2_slope(rng.standard_normal(20000)).exponent - 0.504) < 0.05)
     True
     """
     return dfa(x, fit_range=ALPHA2_RANGE, order=order)

@@ -196,8 +196,10 @@ class ScalingFit:
         Short name of the estimator.
     options : mapping
         Every effective option (what was used, not what was asked for).
-    raw_exponent : float
-        The uncorrected regression estimate.
+    slope_exponent : float
+        The slope of the fitted log-log line expressed as the exponent, before any
+        calibration (equal to ``exponent`` until :mod:`tfhrv.calibration` corrects it).  In
+        files and tables it is the ``*_slope`` variable; ``exponent`` is the bare name.
     calibrated : bool
         Whether ``exponent``, ``se`` and ``ci`` come from the calibration tables.
     lack_of_fit_pvalue, excess_scatter : float
@@ -225,7 +227,7 @@ class ScalingFit:
     curvature_pvalue: float
     method: str
     options: Mapping[str, Any] = field(default_factory=dict)
-    raw_exponent: float = float("nan")
+    slope_exponent: float = float("nan")
     calibrated: bool = False
     lack_of_fit_pvalue: float = float("nan")
     excess_scatter: float = float("nan")
@@ -238,8 +240,8 @@ class ScalingFit:
             if not (isinstance(v, np.ndarray) and not v.flags.writeable and v.base is None):
                 object.__setattr__(self, name, readonly(np.array(v)))
         object.__setattr__(self, "options", MappingProxyType(dict(self.options)))
-        if not np.isfinite(self.raw_exponent):
-            object.__setattr__(self, "raw_exponent", float(self.exponent))
+        if not np.isfinite(self.slope_exponent):
+            object.__setattr__(self, "slope_exponent", float(self.exponent))
 
     def converted(self) -> Conversion:
         """The exponent as beta, alpha and Hurst, with its fGn/fBm class."""

@@ -17,7 +17,14 @@ from scipy import fft as sp_fft
 from scipy import signal, special
 
 from tfhrv.core.errors import InsufficientDataError
-from tfhrv.core.validation import as_1d_float, check_choice, check_positive, check_range, readonly
+from tfhrv.core.validation import (
+    as_1d_float,
+    check_choice,
+    check_int,
+    check_positive,
+    check_range,
+    readonly,
+)
 from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 from tfhrv.signal.resample import resample_even
 
@@ -191,11 +198,7 @@ def welch_psd(
     fs = check_positive(fs_hz, "fs_hz")
     check_choice(detrend, "detrend", _DETRENDS)
     check_choice(window, "window", _WINDOWS)
-    if isinstance(nperseg, bool) or not isinstance(nperseg, int | np.integer):
-        raise TypeError(f"nperseg must be an integer, got {nperseg!r}")
-    nperseg = int(nperseg)
-    if nperseg < 2:
-        raise ValueError(f"nperseg must be >= 2, got {nperseg}")
+    nperseg = check_int(nperseg, "nperseg", minimum=2)
     if nperseg > xs.size:
         raise InsufficientDataError(f"nperseg = {nperseg} exceeds the series length {xs.size}")
     noverlap = nperseg // 2
@@ -268,11 +271,7 @@ def periodogram_psd(
     if nfft is None:
         m = n
     else:
-        if isinstance(nfft, bool) or not isinstance(nfft, int | np.integer):
-            raise TypeError(f"nfft must be an integer, got {nfft!r}")
-        m = int(nfft)
-        if m < n:
-            raise ValueError(f"nfft must be >= len(x) = {n}, got {nfft!r}")
+        m = check_int(nfft, "nfft", minimum=n)
     if detrend == "constant":
         xd = xs - xs.mean()
     elif detrend == "linear":
@@ -593,11 +592,7 @@ def spectral_exponent(
     if n_bins is None:
         nb = max(int(round(BINS_PER_DECADE * np.log10(high / low))), 1)
     else:
-        if isinstance(n_bins, bool) or not isinstance(n_bins, int | np.integer):
-            raise TypeError(f"n_bins must be an integer, got {n_bins!r}")
-        nb = int(n_bins)
-        if nb < 1:
-            raise ValueError(f"n_bins must be >= 1, got {n_bins!r}")
+        nb = check_int(n_bins, "n_bins", minimum=1)
     ok = (f > 0) & (p > 0)
     f, p = f[ok], p[ok]
     if f.size == 0:

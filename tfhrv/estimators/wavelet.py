@@ -15,7 +15,12 @@ import pywt
 from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
-from tfhrv.core.validation import as_1d_float, check_choice, readonly
+from tfhrv.core.validation import (
+    as_1d_float,
+    check_choice,
+    check_int,
+    readonly,
+)
 from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 
 __all__ = [
@@ -209,17 +214,14 @@ def logscale_diagram(
     True
     """
     check_choice(wavelet_family, "wavelet_family", _FAMILIES)
-    if isinstance(vanishing_moments, bool) or not isinstance(
-        vanishing_moments, int | np.integer
-    ):
-        raise TypeError(f"vanishing_moments must be an int, got {vanishing_moments!r}")
-    check_choice(int(vanishing_moments), "vanishing_moments", _MOMENTS[wavelet_family])
+    check_choice(check_int(vanishing_moments, "vanishing_moments"), "vanishing_moments",
+                 _MOMENTS[wavelet_family])
     name = f"{wavelet_family}{int(vanishing_moments)}"
     wav = pywt.Wavelet(name)
     flen = wav.dec_len
     x = as_1d_float(x, "x", min_len=2 * flen)
     if np.ptp(x) == 0:
-        raise ValueError("x must not be constant")
+        raise InsufficientDataError("x must not be constant (no fluctuation to scale)")
     n = x.size
     ramp = np.linspace(x[0], x[-1], n)
     levels = pywt.dwt_max_level(n, flen)

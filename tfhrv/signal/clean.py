@@ -90,7 +90,7 @@ class Quality:
     share_kept : float
     removed : mapping of str to int
         Count of intervals per removal reason.
-    ectopic_share : float
+    ectopic_fraction : float
         Share of beats labelled non-sinus (any code other than ``N``).
     n_gaps : int
         Number of detected gaps.
@@ -100,7 +100,7 @@ class Quality:
         (n, 2) start and end (s from start) of every uncovered stretch >= ``gap_min_s``.
     hourly_coverage : numpy.ndarray
         Fraction of each elapsed hour covered by kept intervals.
-    nn_mean_ms, sdnn_ms, rmssd_ms : float
+    nn_mean_ms, nn_sd_ms, rmssd_ms : float
         Mean, SD and root mean square of successive differences of the kept intervals
         (successive differences only between adjacent kept intervals; Task Force 1996).
     """
@@ -112,13 +112,13 @@ class Quality:
     n_kept: int
     share_kept: float
     removed: MappingProxyType
-    ectopic_share: float
+    ectopic_fraction: float
     n_gaps: int
     longest_gap_s: float
     gaps_s: np.ndarray
     hourly_coverage: np.ndarray
     nn_mean_ms: float
-    sdnn_ms: float
+    nn_sd_ms: float
     rmssd_ms: float
 
     def as_dict(self) -> dict:
@@ -131,13 +131,13 @@ class Quality:
             "n_kept": self.n_kept,
             "share_kept": self.share_kept,
             "removed": dict(self.removed),
-            "ectopic_share": self.ectopic_share,
+            "ectopic_fraction": self.ectopic_fraction,
             "n_gaps": self.n_gaps,
             "longest_gap_s": self.longest_gap_s,
             "gaps_s": self.gaps_s.tolist(),
             "hourly_coverage": self.hourly_coverage.tolist(),
             "nn_mean_ms": self.nn_mean_ms,
-            "sdnn_ms": self.sdnn_ms,
+            "nn_sd_ms": self.nn_sd_ms,
             "rmssd_ms": self.rmssd_ms,
         }
 
@@ -286,12 +286,12 @@ def _quality(rec: Recording, keep, reason, sinus, opt: CleanOptions) -> Quality:
         n_kept=int(keep.sum()),
         share_kept=float(keep.mean()),
         removed=MappingProxyType(removed),
-        ectopic_share=float(1.0 - sinus.mean()),
+        ectopic_fraction=float(1.0 - sinus.mean()),
         n_gaps=int(gaps.shape[0]),
         longest_gap_s=longest,
         gaps_s=readonly(gaps),
         hourly_coverage=readonly(hourly),
         nn_mean_ms=float(nn.mean()) if nn.size else float("nan"),
-        sdnn_ms=float(nn.std(ddof=1)) if nn.size > 1 else float("nan"),
+        nn_sd_ms=float(nn.std(ddof=1)) if nn.size > 1 else float("nan"),
         rmssd_ms=float(np.sqrt(np.mean(diffs**2))) if diffs.size else float("nan"),
     )

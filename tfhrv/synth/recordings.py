@@ -526,6 +526,29 @@ def simulate_recording(
     >>> sim.truth["seed"]
     7
     """
+    days, duration, prof, sampling_hz, gap_list = _checked_inputs(
+        days=days, start=start, profile=profile, schedule=schedule, sampling_hz=sampling_hz,
+        gaps=gaps)
+    seed = _seed(rng)
+    gen = np.random.default_rng(seed)
+    periods = prof.schedule.periods(start, duration)
+    sinus = _sinus_intervals(prof, start, duration, periods, gen)
+    events = _insert_events(sinus.nn, prof, gen)
+    times = np.cumsum(events.rr) / 1000.0
+    if sampling_hz is not None:
+        times = np.round(times * sampling_hz) / sampling_hz
+    cut = _cut_gaps(times, events, duration, gap_list)
+    rec = Recording(cut.times, np.diff(cut.times, prepend=0.0) * 1000.0, cut.labels,
+                    start=start, record_id=record_id,
+                    metadata={"synthetic": True, "profile": prof.name, "seed": seed})
+    truth = _truth(prof, sinus, events, cut, times, seed=seed, record_id=record_id,
+                   start=start, days=days, duration=duration, sampling_hz=sampling_hz,
+                   periods=periods, gap_list=gap_list)
+    return SyntheticRecording(rec, truth)
+
+
+def _checked_inputs(*, days, start, profile, schedule, sampling_hz, gaps):
+    """Validated ``days``, duration (s), profile, sampling rate and sorted gap list."""
     days = check_positive(days, "days")
     duration = days * 86400.0
     if duration < 600.0:
@@ -555,17 +578,28 @@ def simulate_recording(
                 f"inside the record and not overlapping, got {(a, d)!r}"
             )
         prev_end = a + d
+    return days, duration, prof, sampling_hz, gap_list
 
+
+def _seed(rng) -> int:
+    """The integer seed behind ``rng`` (stored in the truth, so a run can be repeated)."""
     if isinstance(rng, np.random.Generator):
-        seed = int(rng.integers(2**63 - 1))
-    elif rng is None:
-        seed = int(np.random.SeedSequence().entropy % (2**63 - 1))
-    else:
-        seed = int(rng)
-    gen = np.random.default_rng(seed)
+        return int(rng.integers(2**63 - 1))
+    if rng is None:
+        return int(np.random.SeedSequence().entropy % (2**63 - 1))
+    return int(rng)
 
+
+@dataclass(frozen=True, slots=True)
+class _Sinus:
+    nn: np.ndarray  # sinus intervals (ms)
+    segments: list  # sleep/wake segments of the scaling component
+
+
+def _sinus_intervals(prof: SimulationProfile, start: dt.datetime, duration: float,
+                     periods: list[tuple[float, float]], gen: np.random.Generator) -> _Sinus:
+    """The sinus interval series of the model in :func:`simulate_recording` (Notes)."""
     t_clock0 = start.hour * 3600.0 + start.minute * 60.0 + start.second + start.microsecond / 1e6
-    periods = prof.schedule.periods(start, duration)
     ramp_s = 60.0 * prof.transition_min
 
     def mean_nn(t: np.ndarray, s: np.ndarray) -> np.ndarray:
@@ -603,8 +637,27 @@ def simulate_recording(
             nn += lf_sd * np.interp(t * LF_GRID_HZ, grid_i, lf_grid)
         nn = np.maximum(nn, 250.0)  # physiological floor; not reached with the shipped profiles
         t = np.cumsum(nn) / 1000.0
+    return _Sinus(nn, segs)
 
-    # premature beats and detection artifacts on the sinus index
+
+@dataclass(frozen=True, slots=True)
+class _Events:
+    rr: np.ndarray  # intervals after premature beats and artifacts (ms)
+    labels: np.ndarray
+    pos: np.ndarray  # new index of the first piece of each sinus interval
+    ect: np.ndarray  # sinus index of each premature beat
+    art: np.ndarray  # sinus index of each artifact
+    sinus_labels: np.ndarray
+    coupling: np.ndarray
+    extra: np.ndarray  # artifact is a false extra detection (else a missed beat)
+    art_labels: np.ndarray
+
+
+def _insert_events(nn: np.ndarray, prof: SimulationProfile, gen: np.random.Generator
+                   ) -> _Events:
+    """Premature beats and detection artifacts on the sinus index (Notes of
+    :func:`simulate_recording`)."""
+    n_sinus = nn.size
     n_ev = gen.poisson((prof.ectopic_rate + prof.artifact_rate) * n_sinus)
     ev = _place_events(n_sinus, n_ev, gen)
     is_ect = gen.random(ev.size) < prof.ectopic_rate / max(prof.ectopic_rate + prof.artifact_rate,
@@ -623,7 +676,7 @@ def simulate_recording(
     counts = np.ones(n_sinus, dtype=np.int64)
     counts[art[extra]] = 2
     counts[art[~extra] + 1] = 0
-    pos = np.cumsum(counts) - counts  # new index of the first piece of each sinus interval
+    pos = np.cumsum(counts) - counts
     out_rr = np.repeat(rr, counts)
     out_lab = np.repeat(lab, counts)
     u = gen.uniform(0.1, 0.4, int(extra.sum()))
@@ -635,19 +688,28 @@ def simulate_recording(
     pm = pos[art[~extra]]
     out_rr[pm] = rr[art[~extra]] + rr[art[~extra] + 1]
     out_lab[pm] = art_lab[~extra]
+    return _Events(out_rr, out_lab, pos, ect, art, lab, coup, extra, art_lab)
 
-    times = np.cumsum(out_rr) / 1000.0
-    if sampling_hz is not None:
-        times = np.round(times * sampling_hz) / sampling_hz
-    t_all = times
+
+@dataclass(frozen=True, slots=True)
+class _Cut:
+    times: np.ndarray  # beat times kept (s)
+    labels: np.ndarray
+    new_index: np.ndarray  # index after the cut of every beat before it
+    ok_ect: np.ndarray  # premature beat and its companion survived the cut
+    ok_art: np.ndarray
+    spanning: list  # index (before the cut) of the interval spanning each gap
+    gap_rows: list
+
+
+def _cut_gaps(times: np.ndarray, ev: _Events, duration: float,
+              gap_list: list[tuple[float, float]]) -> _Cut:
+    """Beats up to ``duration`` with the gaps removed; which events survived."""
     n_keep = int(np.searchsorted(times, duration, side="right"))
-    times, out_lab = times[:n_keep], out_lab[:n_keep]
-
-    # events as (new index, companions that must survive)
-    ect_idx = pos[ect]
-    art_idx = pos[art]
-    art_span = np.where(extra, 2, 1)
-
+    times, labels = times[:n_keep], ev.labels[:n_keep]
+    ect_idx = ev.pos[ev.ect]
+    art_idx = ev.pos[ev.art]
+    art_span = np.where(ev.extra, 2, 1)
     keep = np.ones(n_keep, dtype=bool)
     spanning_old = []
     gap_rows = []
@@ -673,24 +735,28 @@ def simulate_recording(
 
     ok_e = survives(ect_idx, np.full(ect_idx.size, 2))
     ok_a = survives(art_idx, art_span)
-    times = times[keep]
-    labels = out_lab[keep]
-    rr_ms = np.diff(times, prepend=0.0) * 1000.0
+    return _Cut(times[keep], labels[keep], new_index, ok_e, ok_a, spanning_old, gap_rows)
 
-    rec = Recording(times, rr_ms, labels, start=start, record_id=record_id,
-                    metadata={"synthetic": True, "profile": prof.name, "seed": seed})
+
+def _truth(prof: SimulationProfile, sinus: _Sinus, ev: _Events, cut: _Cut,
+           t_all: np.ndarray, *, seed: int, record_id: str, start: dt.datetime, days: float,
+           duration: float, sampling_hz: float | None, periods: list,
+           gap_list: list) -> dict[str, Any]:
+    """The ground-truth dictionary documented in :func:`simulate_recording`."""
+    nn, times, pos = sinus.nn, cut.times, ev.pos
+    ok_e, ok_a, extra = cut.ok_ect, cut.ok_art, ev.extra
 
     def r4(v: Any) -> list[float]:
         return [round(float(z), 4) for z in np.atleast_1d(v)]
 
-    e_new = new_index[ect_idx[ok_e]]
-    a_new = new_index[art_idx[ok_a]]
-    g_new = new_index[np.asarray(spanning_old, dtype=np.int64)]
+    e_new = cut.new_index[pos[ev.ect][ok_e]]
+    a_new = cut.new_index[pos[ev.art][ok_a]]
+    g_new = cut.new_index[np.asarray(cut.spanning, dtype=np.int64)]
     affected = set(e_new.tolist()) | set((e_new + 1).tolist()) | set(a_new.tolist())
     affected |= set((a_new[extra[ok_a]] + 1).tolist()) | set(g_new.tolist())
 
     seg_rows = []
-    for sg in segs:
+    for sg in sinus.segments:
         t_first = float(t_all[pos[sg["sinus_first"]]])
         t_last = float(t_all[pos[sg["sinus_last"]]])
         i0 = int(np.searchsorted(times, t_first, side="left"))
@@ -717,8 +783,8 @@ def simulate_recording(
                "sleep": prof.schedule.hours * 3.6e6 / prof.nn_sleep_ms}
     expect = {st: _state_exponents(prof, st, int(nominal[st]), getattr(prof, f"nn_{st}_ms") / 1e3)
               for st in ("wake", "sleep")}
-
-    truth: dict[str, Any] = {
+    ect_ok = ev.ect[ok_e]
+    return {
         "generator": "tfhrv.synth.recordings.simulate_recording",
         "seed": seed,
         "record_id": record_id,
@@ -750,26 +816,25 @@ def simulate_recording(
         },
         "ectopic": {
             "index": e_new.tolist(),
-            "label": lab[ect[ok_e]].tolist(),
+            "label": ev.sinus_labels[ect_ok].tolist(),
             "time_s": r4(times[e_new]) if e_new.size else [],
-            "coupling_ratio": r4(coup[ok_e]) if e_new.size else [],
-            "sinus_ms": r4(nn[ect[ok_e]]) if e_new.size else [],
-            "next_sinus_ms": r4(nn[ect[ok_e] + 1]) if e_new.size else [],
+            "coupling_ratio": r4(ev.coupling[ok_e]) if e_new.size else [],
+            "sinus_ms": r4(nn[ect_ok]) if e_new.size else [],
+            "next_sinus_ms": r4(nn[ect_ok + 1]) if e_new.size else [],
         },
         "artifact": {
             "index": a_new.tolist(),
             "kind": np.where(extra[ok_a], "extra", "missed").tolist(),
-            "label": art_lab[ok_a].tolist(),
+            "label": ev.art_labels[ok_a].tolist(),
             "time_s": r4(times[a_new]) if a_new.size else [],
         },
         "gap": {
             "index": g_new.tolist(),
             "start_s": [round(float(times[i - 1]), 4) for i in g_new],
             "end_s": [round(float(times[i]), 4) for i in g_new],
-            "requested_start_s": [a for a, _ in gap_rows],
-            "requested_duration_s": [d for _, d in gap_rows],
+            "requested_start_s": [a for a, _ in cut.gap_rows],
+            "requested_duration_s": [d for _, d in cut.gap_rows],
         },
         "affected_index": sorted(int(i) for i in affected),
         "n_intervals": int(times.size),
     }
-    return SyntheticRecording(rec, truth)

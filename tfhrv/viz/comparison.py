@@ -13,7 +13,7 @@ from tfhrv.dataset.netcdf import atomic_write
 __all__ = ["KEY_VARIABLES", "plot_comparison"]
 
 #: Variables drawn in ``comparison.png`` (those present with data).
-KEY_VARIABLES = ("sdnn_ms", "rmssd_ms", "nn_mean_ms", "alpha1", "alpha2", "beta_spectral",
+KEY_VARIABLES = ("nn_sd_ms", "rmssd_ms", "nn_mean_ms", "alpha1", "alpha2", "beta_spectral",
                  "alpha_long", "alpha1_night_minus_day")
 
 

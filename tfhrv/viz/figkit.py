@@ -14,6 +14,10 @@ from functools import wraps
 import numpy as np
 import xarray as xr
 
+from tfhrv.circadian.days import RhythmOptions
+from tfhrv.dataset.schema import CATEGORIES
+from tfhrv.estimators.spectral import TASK_FORCE_BANDS
+
 FOOTER = "research use only — not for diagnosis"
 
 #: Okabe & Ito (2008) colour-universal palette (hex), as listed by Wong (2011).
@@ -24,15 +28,12 @@ OKABE_ITO = {
 _C = OKABE_ITO
 _GREY = "#7F7F7F"
 #: Task Force (1996) band limits in Hz, used when the tree does not carry them.
-_TASK_FORCE = (("ULF", 0.0, 0.003), ("VLF", 0.003, 0.04), ("LF", 0.04, 0.15),
-               ("HF", 0.15, 0.4))
-_CATEGORIES = ("stationary", "trend", "unit-root", "drifting", "inconclusive", "too-short")
+_TASK_FORCE = tuple((name, lo, hi) for name, (lo, hi) in TASK_FORCE_BANDS.items())
 _CATEGORY_COLOURS = (_C["green"], _C["yellow"], _C["vermillion"], _C["purple"], "#A6A6A6",
                      "#E6E6E6")
-_ESTIMATORS = ("none", "spectral", "wavelet", "dfa")
 _ESTIMATOR_COLOURS = ("#E6E6E6", _C["sky"], _C["blue"], _C["orange"])
-_NONSTATIONARY = (1, 2, 3)  # trend, unit-root, drifting
-_MIN_COVERAGE = 0.5  # as tfhrv.circadian.days.RhythmOptions.min_coverage
+_NONSTATIONARY = tuple(CATEGORIES.index(c) for c in ("trend", "unit-root", "drifting"))
+_MIN_COVERAGE = RhythmOptions().min_coverage
 _FOOT_IN = 0.24  # inches kept free at the bottom of every figure for the footer
 _STYLE = {
     "font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8,

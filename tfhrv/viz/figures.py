@@ -25,12 +25,11 @@ import numpy as np
 import xarray as xr
 
 from tfhrv.core.validation import check_choice, check_positive
+from tfhrv.dataset.schema import CATEGORIES, ESTIMATORS
 from tfhrv.viz.figkit import (
     _C,
-    _CATEGORIES,
     _CATEGORY_COLOURS,
     _ESTIMATOR_COLOURS,
-    _ESTIMATORS,
     _GREY,
     _MIN_COVERAGE,
     _NONSTATIONARY,
@@ -145,8 +144,8 @@ def overview(tree: xr.DataTree, /):
         _message(ax_nn, "no NN series in this file")
     if short is not None and short.sizes.get("time", 0):
         t_s, hop_s = _tier_hours(short)
-        ax_nn.plot(t_s, short["nn_mean"].values, color=_C["black"], lw=1.0, zorder=3,
-                   label="5-min mean NN", gid="nn_mean")
+        ax_nn.plot(t_s, short["nn_mean_ms"].values, color=_C["black"], lw=1.0, zorder=3,
+                   label="5-min mean NN", gid="nn_mean_ms")
         cat = short["stationarity"].values.astype(int)
         ns = np.isin(cat, _NONSTATIONARY)
         trans = blended_transform_factory(ax_nn.transData, ax_nn.transAxes)
@@ -224,7 +223,7 @@ def spectrum(tree: xr.DataTree, /):
         return fig
     y = _values(rec, "beta_spectral_fit_y")
     used = _values(rec, "beta_spectral_fit_used").astype(bool)
-    b0, raw = _scalar(rec, "beta_spectral_intercept"), _scalar(rec, "beta_spectral_raw")
+    b0, raw = _scalar(rec, "beta_spectral_intercept"), _scalar(rec, "beta_spectral_slope")
     band = np.asarray(rec.attrs.get("beta_spectral_band_hz", []), float).ravel()
     if band.size != 2 or not np.all(np.isfinite(band)):
         band = 10.0 ** np.array([x[used].min(), x[used].max()]) if used.any() else None
@@ -309,7 +308,7 @@ def dfa(tree: xr.DataTree, /):
              ("alpha2", r"$\alpha_2$", _C["vermillion"], (16, 64)),
              ("alpha_long", r"$\alpha_{long}$", _C["green"], None))
     for name, tex, colour, default in lines:
-        b0, raw = _scalar(rec, f"{name}_intercept"), _scalar(rec, f"{name}_raw")
+        b0, raw = _scalar(rec, f"{name}_intercept"), _scalar(rec, f"{name}_slope")
         if not (np.isfinite(b0) and np.isfinite(raw)):
             continue
         fx, fu = _values(rec, f"{name}_fit_x"), _values(rec, f"{name}_fit_used")
@@ -376,7 +375,7 @@ def logscale(tree: xr.DataTree, /):
     ax.errorbar(j[used], yj[used], yerr=err[used], fmt="o", color=_C["blue"], ms=4.5,
                 capsize=2, lw=0.9, label=r"octaves in the fit ($\pm$1.96 SD of $y_j$)",
                 gid="y_j_used")
-    b0, raw = _scalar(rec, "beta_wavelet_intercept"), _scalar(rec, "beta_wavelet_raw")
+    b0, raw = _scalar(rec, "beta_wavelet_intercept"), _scalar(rec, "beta_wavelet_slope")
     if used.any() and np.isfinite(b0) and np.isfinite(raw):
         jj = np.array([j[used].min(), j[used].max()])
         ax.plot(jj, b0 + raw * jj, color=_C["vermillion"], lw=2.0,
@@ -510,8 +509,8 @@ def stationarity_timeline(tree: xr.DataTree, /):
     tiers = [(name, _ds(tree, name)) for name in ("short", "long")]
     tiers = [(n, d) for n, d in tiers if d is not None and d.sizes.get("time", 0)]
     for ax, var, names, colours, title in (
-            (ax_c, "stationarity", _CATEGORIES, _CATEGORY_COLOURS, "stationarity category"),
-            (ax_e, "estimator", _ESTIMATORS, _ESTIMATOR_COLOURS, "primary estimator")):
+            (ax_c, "stationarity", CATEGORIES, _CATEGORY_COLOURS, "stationarity category"),
+            (ax_e, "estimator", ESTIMATORS, _ESTIMATOR_COLOURS, "primary estimator")):
         _style(ax, grid="")
         ax.set_ylim(-0.5, max(len(tiers), 1) - 0.5)
         if not tiers:

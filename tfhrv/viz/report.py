@@ -288,11 +288,11 @@ def _quality(rec: xr.Dataset | None) -> str:
         ["coverage of the record by NN intervals", _num(_scalar(rec, "coverage"), 1, scale=100,
                                                         unit=" %")],
         ["intervals kept", _num(_scalar(rec, "share_kept"), 1, scale=100, unit=" %")],
-        ["ectopic (non-sinus) share", _num(_scalar(rec, "ectopic_share"), 2, scale=100,
+        ["ectopic (non-sinus) share", _num(_scalar(rec, "ectopic_fraction"), 2, scale=100,
                                            unit=" %")],
         ["longest gap", _num(_scalar(rec, "longest_gap_s"), 1, scale=1 / 60, unit=" min")],
         ["mean NN", _num(_scalar(rec, "nn_mean_ms"), 0, unit=" ms")],
-        ["SDNN", _num(_scalar(rec, "sdnn_ms"), 1, unit=" ms")],
+        ["SDNN", _num(_scalar(rec, "nn_sd_ms"), 1, unit=" ms")],
         ["RMSSD", _num(_scalar(rec, "rmssd_ms"), 1, unit=" ms")],
         ["recorded", _num(_scalar(rec, "recorded_h"), 2, unit=" h")],
         ["analysable", _num(_scalar(rec, "analysable_h"), 2, unit=" h")],
@@ -371,7 +371,7 @@ def _with_ci(v, lo, hi, digits: int) -> str:
     return f"{_num(v, digits)} [{_num(lo, digits)}, {_num(hi, digits)}]"
 
 
-_UNITS = {"nn_mean": "ms", "nn_sd": "ms", "lf_power": "ms²", "hf_power": "ms²"}
+_UNITS = {"nn_mean_ms": "ms", "nn_sd_ms": "ms", "lf_power": "ms²", "hf_power": "ms²"}
 
 
 def _exponents(rec: xr.Dataset | None) -> str:
@@ -380,7 +380,7 @@ def _exponents(rec: xr.Dataset | None) -> str:
         rows.append([_e(label), _e(meaning), _e(_fit_range(rec, name) or rng),
                      _num(_scalar(rec, name)),
                      _ci(rec, name), _num(_scalar(rec, f"{name}_se"), 3),
-                     _num(_scalar(rec, f"{name}_raw"))])
+                     _num(_scalar(rec, f"{name}_slope"))])
     table = _table(["exponent", "what", "fit range (points used)", "value",
                     "95 % calibrated CI", "SE", "slope before calibration"], rows,
                    numeric={3, 4, 5, 6})
@@ -407,7 +407,7 @@ def _rhythm_tables(table: pd.DataFrame | None) -> str:
     clock = ref == "clock"
 
     def dig(var):
-        return 0 if var in ("nn_mean", "nn_sd", "lf_power", "hf_power") else 2
+        return 0 if var in ("nn_mean_ms", "nn_sd_ms", "lf_power", "hf_power") else 2
 
     def ph(v):
         v = float(v)

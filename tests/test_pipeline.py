@@ -1,0 +1,73 @@
+"""One record pipeline: ``inspect`` shows a subset of what ``scan`` computes, never a
+different answer; failures that are not a documented lack of data propagate.
+
+Source of truth: the open records of ``../shared/data/open-rr`` (PhysioNet nsr2db, chf2db,
+nsrdb; Goldberger et al., Circulation 2000;101:e215) analysed both ways.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from tfhrv.analysis import pipeline
+from tfhrv.analysis.inspection import inspect_record, inspection_dict
+from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions, analyse_record
+from tfhrv.analysis.policy import FitnessThresholds
+from tfhrv.dataset.build import build_tree
+from tfhrv.dataset.schema import validate
+from tfhrv.io.readers import read_recording
+from tfhrv.signal.clean import clean
+from tfhrv.synth import fgn
+
+RECORDS = ("nsr2db/nsr021.csv.gz", "chf2db/chf206.csv.gz", "nsrdb/16273.csv.gz")
+
+
+@pytest.mark.parametrize("name", RECORDS)
+def test_inspect_equals_scan_on_open_records(open_rr, name):
+    cleaned = clean(read_recording(open_rr / name))
+    options = ScanOptions(thresholds=FitnessThresholds(max_gap_s=2400.0))
+    ins = inspect_record(cleaned, options=options)
+    full = analyse_record(cleaned, options=options, detail="full")
+    tree = validate(build_tree(full))
+    # same verdict, reasons and cautions
+    assert ins.assessment.verdict == full.assessment.verdict
+    assert tree["/record"].attrs["verdict"] == ins.assessment.verdict.verdict
+    # same categories per window in both tiers
+    for tier in ("short", "long"):
+        a, b = getattr(ins.analysis, tier), getattr(full, tier)
+        np.testing.assert_array_equal(a.categories, b.categories)
+        np.testing.assert_array_equal(tree[f"/{tier}"]["stationarity"].values, b.categories)
+    # same whole-record exponents, in the inspect JSON and in the file
+    exps = inspection_dict(ins)["exponents"]
+    for name_ in EXPONENTS:
+        value = exps[name_]["value"] if exps[name_] else np.nan
+        np.testing.assert_allclose(float(tree["/record"][name_]), value, rtol=0, atol=0)
+        if exps[name_]:
+            np.testing.assert_allclose(float(tree["/record"][name_ + "_slope"]),
+                                       exps[name_]["slope"], rtol=0, atol=0)
+
+
+def test_battery_detail_has_no_per_window_values(rng):
+    from tfhrv.signal.recording import Recording
+
+    rr = 800 + 40 * fgn(6000, 0.8, rng=rng)
+    rec = Recording.from_intervals(rr)
+    res = analyse_record(clean(rec), detail="battery")
+    assert res.short.values == {} and res.fluctuation is None
+    with pytest.raises(ValueError, match="detail must be 'full'"):
+        build_tree(res)
+
+
+def test_unexpected_error_propagates(monkeypatch, rng):
+    # A fault inside an estimator that is not a documented lack of data must not become
+    # an empty window (it used to be swallowed as NaN).
+    from tfhrv.signal.recording import Recording
+
+    def broken(*args, **kwargs):
+        raise ZeroDivisionError("injected fault")
+
+    monkeypatch.setattr(pipeline, "periodogram_psd", broken)
+    rr = 800 + 40 * fgn(6000, 0.8, rng=rng)
+    with pytest.raises(ZeroDivisionError, match="injected fault"):
+        analyse_record(clean(Recording.from_intervals(rr)), detail="full")
