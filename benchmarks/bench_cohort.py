@@ -27,7 +27,7 @@ from pathlib import Path
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy is imported
 
 from tfhrv.cohort.run import run_cohort  # noqa: E402
-from tfhrv.synth.recordings import simulate_recording, write_recording_csv  # noqa: E402
+from tfhrv.synth import simulate_recording, write_recording_csv  # noqa: E402
 
 
 def make_records(folder: Path, n: int, days: float) -> Path:

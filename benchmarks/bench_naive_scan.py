@@ -34,7 +34,7 @@ from tfhrv.analysis.windows import LONG, SHORT, tier_windows  # noqa: E402
 from tfhrv.dataset.build import scan  # noqa: E402
 from tfhrv.estimators.dfa import default_scales  # noqa: E402
 from tfhrv.signal.clean import clean  # noqa: E402
-from tfhrv.synth.recordings import simulate_recording  # noqa: E402
+from tfhrv.synth import simulate_recording  # noqa: E402
 
 
 def textbook_dfa(x: np.ndarray, scales: np.ndarray) -> np.ndarray:

@@ -26,7 +26,7 @@ from tfhrv.analysis.windows import LONG, SHORT, category_codes, tier_stationarit
 from tfhrv.dataset.build import scan  # noqa: E402
 from tfhrv.io.readers import read_recording  # noqa: E402
 from tfhrv.signal.clean import clean  # noqa: E402
-from tfhrv.synth.recordings import simulate_recording, write_recording_csv  # noqa: E402
+from tfhrv.synth import simulate_recording, write_recording_csv  # noqa: E402
 
 
 def median_time(fn, runs: int) -> float:

@@ -24,7 +24,7 @@ from tfhrv.estimators.spectral import (
     welch_psd,
 )
 from tfhrv.signal.resample import resample_even
-from tfhrv.synth.recordings import fgn
+from tfhrv.synth import fgn
 
 N_BEATS = 100_000
 RUNS = 5

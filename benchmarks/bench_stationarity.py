@@ -31,7 +31,7 @@ from tfhrv.stationarity.battery import (  # noqa: E402
     kpss_test,
     stationarity_battery,
 )
-from tfhrv.synth.recordings import fgn  # noqa: E402
+from tfhrv.synth import fgn  # noqa: E402
 
 SHORT, LONG = 350, 15_000
 N_SHORT, N_LONG = 288, 24

@@ -20,15 +20,11 @@ from statsmodels.tools.sm_exceptions import InterpolationWarning
 from statsmodels.tsa.stattools import adfuller, kpss
 
 from tfhrv.core.errors import InsufficientDataError
-from tfhrv.stationarity.battery import (
-    CATEGORIES,
-    _trim_ends,
-    adf_test,
-    drift_test,
-    kpss_test,
-    stationarity_battery,
-    surrogates,
-)
+from tfhrv.stationarity.adf import adf_test
+from tfhrv.stationarity.battery import CATEGORIES, stationarity_battery
+from tfhrv.stationarity.drift import drift_test
+from tfhrv.stationarity.kpss import kpss_test
+from tfhrv.stationarity.surrogates import _trim_ends, surrogates
 from tfhrv.synth import fgn
 
 N_SEEDS = 20
@@ -351,10 +347,10 @@ def test_validation_errors():
 
 def test_adf_pvalue_equals_statsmodels_mackinnonp():
     # Source: statsmodels.tsa.adfvalues.mackinnonp (MacKinnon 1994 response surface);
-    # adf_test evaluates the same tables without the per-call overhead
+    # adf_test evaluates the same published coefficients without importing statsmodels
     from statsmodels.tsa.adfvalues import mackinnonp
 
-    from tfhrv.stationarity.battery import _mackinnon_p_constant
+    from tfhrv.stationarity.adf import _mackinnon_p_constant
 
     for stat in np.linspace(-25.0, 3.0, 561):
         assert _mackinnon_p_constant(stat) == pytest.approx(

@@ -1,60 +1,52 @@
-"""Scaling-exponent estimators: pure functions on 1-D arrays returning frozen results."""
+"""Scaling-exponent estimators: pure functions on 1-D arrays returning frozen results.
 
-from tfhrv.estimators.dfa import (
-    Fluctuation,
-    LocalSlopes,
-    alpha1_slope,
-    alpha2_slope,
-    dfa,
-    dfa_fluctuation,
-    dfa_ranges,
-    local_alpha,
-    local_slopes,
-)
-from tfhrv.estimators.loglog import Conversion, ScalingFit, convert_exponent, loglog_fit
-from tfhrv.estimators.presets import DFA_PRESETS, PRESETS, dfa_fit_range, estimate, estimate_dfa
-from tfhrv.estimators.spectral import (
-    TASK_FORCE_BANDS,
-    BandPowers,
-    Spectrum,
-    band_powers,
-    beta_from_nn,
-    lomb_scargle_psd,
-    periodogram_psd,
-    spectral_exponent,
-    welch_psd,
-)
-from tfhrv.estimators.wavelet import LogscaleDiagram, logscale_diagram, wavelet_exponent
+The names below are imported on first use, so importing one estimator module does not
+import the others (scipy.signal, for one, is slow to import).
+"""
 
-__all__ = [
-    "DFA_PRESETS",
-    "PRESETS",
-    "TASK_FORCE_BANDS",
-    "BandPowers",
-    "Conversion",
-    "Fluctuation",
-    "LocalSlopes",
-    "LogscaleDiagram",
-    "ScalingFit",
-    "Spectrum",
-    "alpha1_slope",
-    "alpha2_slope",
-    "band_powers",
-    "beta_from_nn",
-    "convert_exponent",
-    "dfa",
-    "dfa_fit_range",
-    "dfa_fluctuation",
-    "dfa_ranges",
-    "estimate",
-    "estimate_dfa",
-    "local_alpha",
-    "local_slopes",
-    "logscale_diagram",
-    "lomb_scargle_psd",
-    "loglog_fit",
-    "periodogram_psd",
-    "spectral_exponent",
-    "wavelet_exponent",
-    "welch_psd",
-]
+from importlib import import_module
+
+_LAZY = {
+    "BandPowers": "tfhrv.estimators.spectral",
+    "Conversion": "tfhrv.estimators.loglog",
+    "DFA_PRESETS": "tfhrv.estimators.presets",
+    "Fluctuation": "tfhrv.estimators.dfa",
+    "LocalSlopes": "tfhrv.estimators.dfa",
+    "LogscaleDiagram": "tfhrv.estimators.wavelet",
+    "PRESETS": "tfhrv.estimators.presets",
+    "ScalingFit": "tfhrv.estimators.loglog",
+    "Spectrum": "tfhrv.estimators.spectral",
+    "TASK_FORCE_BANDS": "tfhrv.estimators.spectral",
+    "alpha1_slope": "tfhrv.estimators.dfa",
+    "alpha2_slope": "tfhrv.estimators.dfa",
+    "band_powers": "tfhrv.estimators.spectral",
+    "beta_from_nn": "tfhrv.estimators.spectral",
+    "convert_exponent": "tfhrv.estimators.loglog",
+    "dfa": "tfhrv.estimators.dfa",
+    "dfa_fit_range": "tfhrv.estimators.presets",
+    "dfa_fluctuation": "tfhrv.estimators.dfa",
+    "dfa_ranges": "tfhrv.estimators.dfa",
+    "estimate": "tfhrv.estimators.presets",
+    "estimate_dfa": "tfhrv.estimators.presets",
+    "local_alpha": "tfhrv.estimators.dfa",
+    "local_slopes": "tfhrv.estimators.dfa",
+    "loglog_fit": "tfhrv.estimators.loglog",
+    "logscale_diagram": "tfhrv.estimators.wavelet",
+    "lomb_scargle_psd": "tfhrv.estimators.spectral",
+    "periodogram_psd": "tfhrv.estimators.spectral",
+    "spectral_exponent": "tfhrv.estimators.spectral",
+    "wavelet_exponent": "tfhrv.estimators.wavelet",
+    "welch_psd": "tfhrv.estimators.spectral",
+}
+
+__all__ = sorted(_LAZY)
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        return getattr(import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'tfhrv.estimators' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return __all__

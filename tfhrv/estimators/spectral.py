@@ -14,7 +14,7 @@ from typing import Any, Literal
 
 import numpy as np
 from scipy import fft as sp_fft
-from scipy import signal, special
+from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.validation import (
@@ -202,6 +202,8 @@ def welch_psd(
     if nperseg > xs.size:
         raise InsufficientDataError(f"nperseg = {nperseg} exceeds the series length {xs.size}")
     noverlap = nperseg // 2
+    from scipy import signal  # imported here: scipy.signal is slow to import
+
     f, p = signal.welch(
         xs, fs=fs, window=window, nperseg=nperseg, noverlap=noverlap,
         detrend=_scipy_detrend(detrend), scaling="density",
@@ -275,6 +277,8 @@ def periodogram_psd(
     if detrend == "constant":
         xd = xs - xs.mean()
     elif detrend == "linear":
+        from scipy import signal  # imported here: scipy.signal is slow to import
+
         xd = signal.detrend(xs, type="linear")
     else:
         xd = xs
@@ -282,6 +286,8 @@ def periodogram_psd(
         spec = sp_fft.rfft(xd, m)
         wss = float(n)
     else:
+        from scipy import signal
+
         w = signal.get_window(window, n, fftbins=True)
         spec = sp_fft.rfft(w * xd, m)
         wss = float(w @ w)
@@ -356,6 +362,8 @@ def lomb_scargle_psd(t_s: np.ndarray, y: np.ndarray, /, *, frequency_hz: np.ndar
     if np.any(f <= 0):
         raise ValueError("frequency_hz must be > 0")
     fs_mean = (t.size - 1) / (t[-1] - t[0])
+    from scipy import signal
+
     power = signal.lombscargle(t, ys, 2.0 * np.pi * f, normalize=False, floating_mean=True)
     psd = 2.0 * power / fs_mean
     opts = {"floating_mean": True, "normalize": "power", "scaling": "2 P / fs_mean"}
