@@ -237,9 +237,9 @@ def cosine_tree(*, with_clock: bool = True) -> xr.DataTree:
     return xr.DataTree.from_dict({"/": xr.Dataset(attrs=root), "/short": short})
 
 
-def test_rhythm_recovers_an_exact_cosine():
+def test_circadian_recovers_an_exact_cosine():
     # exact theory: least squares on a noise-free cosine returns it (Nelson et al. 1979)
-    fig = plots.rhythm(cosine_tree())
+    fig = plots.circadian(cosine_tree())
     curve = artist(fig, "cosinor_short")
     x, y = curve.get_xdata(), curve.get_ydata()
     assert x[np.argmax(y)] == pytest.approx(15.0)
@@ -255,8 +255,8 @@ def test_rhythm_recovers_an_exact_cosine():
     assert spans and spans[0] == pytest.approx(0.0)
 
 
-def test_rhythm_short_record_has_no_cosinor(figs):
-    fig = figs["rhythm"]
+def test_circadian_short_record_has_no_cosinor(figs):
+    fig = figs["circadian"]
     assert any("no cosinor" in t.get_text() for ax in fig.axes for t in ax.texts)
     assert not [a for ax in fig.axes for a in ax.get_lines() if a.get_gid() == "cosinor_short"]
 
@@ -270,7 +270,7 @@ def test_figures_survive_missing_groups_and_nans(tree):
     for var in ("alpha1", "alpha1_ci", "local_alpha"):
         short[var] = short[var] * np.nan
     nan_tree["short"] = xr.DataTree(short)
-    for func in (plots.overview, plots.scale_map, plots.rhythm):
+    for func in (plots.overview, plots.scale_map, plots.circadian):
         fig = func(nan_tree)
         assert any(t.get_text() == plots.FOOTER for t in fig.texts)
 

@@ -1,7 +1,7 @@
 """Day/night contrasts and 24-h cosinor of every time-resolved variable of a scan.
 
 Works on the DataTree written by :func:`tfhrv.dataset.build.scan` and returns a table (one row
-per variable and day) plus the ``/rhythm`` group.
+per variable and day) plus the ``/circadian`` group.
 
 Day and night come, in order of precedence, from a sleep log, from clock windows
 (defaults night 00:00-06:00, day 10:00-20:00: common practice), or, when the clock start
@@ -24,7 +24,13 @@ import xarray as xr
 from tfhrv.circadian.core import cosinor, infer_rest_periods, night_day_contrast
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError
 
-__all__ = ["RhythmOptions", "format_rhythm", "read_sleep_log", "rhythm_dataset", "rhythm_table"]
+__all__ = [
+    "CircadianOptions",
+    "circadian_dataset",
+    "circadian_table",
+    "format_circadian",
+    "read_sleep_log",
+]
 
 #: (tier, variable) pairs analysed, in table order.
 VARIABLES: tuple[tuple[str, str], ...] = (
@@ -42,8 +48,8 @@ VARIABLES: tuple[tuple[str, str], ...] = (
 
 
 @dataclass(frozen=True, slots=True)
-class RhythmOptions:
-    """Options of the rhythm analysis.
+class CircadianOptions:
+    """Options of the circadian analysis.
 
     ``night_hours``/``day_hours`` are clock windows (start, end) in hours, wrapping past
     midnight when start > end; ``period`` = "auto" uses the clock when the start is known
@@ -125,7 +131,7 @@ def _series(tree: xr.DataTree, tier: str, var: str) -> np.ndarray:
     return ds[var].values
 
 
-def _periods(tree: xr.DataTree, tier: str, opt: RhythmOptions, sleep_log):
+def _periods(tree: xr.DataTree, tier: str, opt: CircadianOptions, sleep_log):
     """night and day masks for a tier, the day index of each window, and the source."""
     root = tree.attrs
     ds = tree[f"/{tier}"].to_dataset()
@@ -190,7 +196,7 @@ def _cosinor_time(tree: xr.DataTree, tier: str) -> tuple[np.ndarray, str]:
     return elapsed_h, "hours from start"
 
 
-def rhythm_table(tree: xr.DataTree, /, *, options: RhythmOptions | None = None,
+def circadian_table(tree: xr.DataTree, /, *, options: CircadianOptions | None = None,
                  sleep_log: list | None = None) -> pd.DataFrame:
     """Day/night contrast and cosinor rows for every variable, pooled and per day.
 
@@ -206,7 +212,7 @@ def rhythm_table(tree: xr.DataTree, /, *, options: RhythmOptions | None = None,
         ``acrophase_h2``/``amplitude2``/``cosinor2_p`` of the 24 + 12 h model, and
         ``acrophase_reference`` ("clock" or "hours from start").
     """
-    opt = options or RhythmOptions()
+    opt = options or CircadianOptions()
     rows = []
     for tier, var in VARIABLES:
         ds = tree[f"/{tier}"].to_dataset()
@@ -270,10 +276,10 @@ def _cosinor_columns(t: np.ndarray, y: np.ndarray, ref: str) -> dict:
     return out
 
 
-def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
+def circadian_dataset(table: pd.DataFrame, options: CircadianOptions, *,
                    tree: xr.DataTree | None = None,
                    sleep_log: list | None = None) -> xr.Dataset:
-    """The table as the ``/rhythm`` group (dimension ``row``) with units and long names.
+    """The table as the ``/circadian`` group (dimension ``row``) with units and long names.
 
     Given the scan ``tree`` (and the ``sleep_log`` the table was made with), the group also
     keeps the night/rest and day masks of the short windows (``short_night``,
@@ -309,7 +315,7 @@ def _fmt(v: float, digits: int = 2) -> str:
     return "n/a" if not np.isfinite(v) else f"{v:.{digits}f}"
 
 
-def _period_label(source: str, options: RhythmOptions) -> str:
+def _period_label(source: str, options: CircadianOptions) -> str:
     """How figures name the night/rest period of a ``_periods`` source."""
     if source == "clock":
         return (f"night {_clock(options.night_hours[0])}–{_clock(options.night_hours[1])} "
@@ -326,7 +332,7 @@ def _clock(h: float) -> str:
     return f"{m // 60:02d}:{m % 60:02d}"
 
 
-def format_rhythm(table: pd.DataFrame, /) -> str:
+def format_circadian(table: pd.DataFrame, /) -> str:
     """Compact text table of the pooled rows (one line per variable)."""
     pooled = table[table["day"] == "all"]
     head = (f"{'variable':<19} {'day':>8} {'night':>8} {'night-day [95% CI]':>24} "

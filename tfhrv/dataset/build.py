@@ -25,6 +25,7 @@ from tfhrv.analysis.policy import (
 )
 from tfhrv.analysis.windows import LONG, SHORT, TierSpec, tier_stationarity, tier_windows
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.estimators.dfa import Fluctuation, dfa_fluctuation, local_slopes
 from tfhrv.estimators.loglog import ScalingFit, convert_exponent
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS, band_powers, periodogram_psd
@@ -176,10 +177,11 @@ def _binned_psd(freq: np.ndarray, psd: np.ndarray, grid: np.ndarray) -> np.ndarr
     return out
 
 
-def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
-                  ) -> tuple[xr.Dataset, np.ndarray]:
+def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions,
+                  progress: Progress = SILENT) -> tuple[xr.Dataset, np.ndarray]:
     rec = cleaned.recording
     windows = tier_windows(cleaned, tier)
+    progress.stage(f"stationarity battery: {len(windows)} {tier.scale} windows")
     battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed)
     keep = cleaned.keep
     mean_rr = float(np.mean(rec.rr_ms[keep])) / 1000.0 if keep.any() else 0.8
@@ -190,7 +192,9 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
     # Task Force 1996: a band needs about 10 periods of its lower limit; ULF needs 24 h.
     band_ok = np.array([tier.window_s >= 10.0 / lo if lo > 0 else False
                         for lo, _ in TASK_FORCE_BANDS.values()])
-    for w, (win, st) in enumerate(zip(windows, battery, strict=True)):
+    for w, (win, st) in enumerate(progress.track(zip(windows, battery, strict=True),
+                                                 total=len(windows),
+                                                 label=f"fits, {tier.scale} windows")):
         nn, tt = win.nn_ms, win.time_s
         v["n_beats"][w] = win.n_beats
         v["coverage"][w] = win.coverage
@@ -454,7 +458,8 @@ def _nn_dataset(cleaned: CleanResult) -> xr.Dataset:
     )
 
 
-def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.DataTree:
+def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
+         progress: Progress = SILENT) -> xr.DataTree:
     """Time-resolved scaling analysis of a cleaned recording.
 
     Parameters
@@ -462,6 +467,8 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
     cleaned : CleanResult
         Output of :func:`tfhrv.signal.clean.clean`.
     options : ScanOptions, optional
+    progress : tfhrv.core.progress.Progress, optional
+        Told each stage and each window (default: silent).
 
     Returns
     -------
@@ -473,8 +480,9 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
 
     opt = options or ScanOptions()
     rec = cleaned.recording
-    short, _ = _analyse_tier(cleaned, opt.short, opt)
-    long, long_cat = _analyse_tier(cleaned, opt.long, opt)
+    short, _ = _analyse_tier(cleaned, opt.short, opt, progress)
+    long, long_cat = _analyse_tier(cleaned, opt.long, opt, progress)
+    progress.stage("whole-record fits and FFT-slope verdict")
     record = _record_dataset(cleaned, long_cat, opt)
     params = {"scan": opt.as_dict(), "clean": {
         "min_ms": cleaned.options.min_ms, "max_ms": cleaned.options.max_ms,

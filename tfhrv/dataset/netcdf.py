@@ -82,7 +82,21 @@ def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
     return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
 
 
+#: groups renamed since earlier releases: old name -> current name
+RENAMED_GROUPS = {"rhythm": "circadian"}
+
+
 def open_tree(path: str | Path, /) -> xr.DataTree:
-    """Open a DataTree written by :func:`write_tree`, fully loaded into memory."""
+    """Open a DataTree written by :func:`write_tree`, fully loaded into memory.
+
+    A group of an older file that has since been renamed (:data:`RENAMED_GROUPS`: the
+    ``/rhythm`` group of tfhrv 0.1 is now ``/circadian``) is returned under its current
+    name, so older scan files keep working.
+    """
     with xr.open_datatree(path, engine=_ENGINE) as tree:
-        return tree.load()
+        tree = tree.load()
+    for old, new in RENAMED_GROUPS.items():
+        if old in tree.children and new not in tree.children:
+            tree[f"/{new}"] = xr.DataTree(tree[f"/{old}"].to_dataset())
+            del tree[old]
+    return tree

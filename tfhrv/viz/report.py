@@ -2,7 +2,7 @@
 and no external reference of any kind, readable on a laptop and printable.
 
 Sections (HTML ids): ``caution-top``, ``summary``, ``quality``, ``verdict``, ``exponents``,
-``time-resolved``, ``rhythm``, ``decision-table``, ``methods``, ``provenance``,
+``time-resolved``, ``circadian``, ``decision-table``, ``methods``, ``provenance``,
 ``caution-bottom``.  Every piece of text that comes from a file (record id, reasons,
 attributes, parameters) is escaped with :func:`html.escape`.
 
@@ -32,7 +32,7 @@ __all__ = ["SECTIONS", "build_report", "write_report"]
 
 #: Section ids in document order.
 SECTIONS = ("caution-top", "summary", "quality", "verdict", "exponents", "time-resolved",
-            "rhythm", "decision-table", "methods", "provenance", "caution-bottom")
+            "circadian", "decision-table", "methods", "provenance", "caution-bottom")
 
 _CSS = """
 :root { --ink:#1a1a1a; --muted:#555; --rule:#d0d0d0; --accent:#0072B2; --warn:#D55E00; }
@@ -175,7 +175,7 @@ _METHODS = (
     "Stationarity: ADF (Said & Dickey 1984), KPSS (Kwiatkowski et al. 1992) and mean/SD "
     "drift against phase-randomised surrogates (Theiler et al. 1992; Schreiber & Schmitz "
     "1996); the category chooses the primary estimator (decision table).",
-    "Rhythm: night − day differences with a moving-block bootstrap interval (Künsch 1989), "
+    "Circadian: night − day differences with a moving-block bootstrap interval (Künsch 1989), "
     "Hedges' g (Hedges 1981), single and 24 + 12 h cosinor (Nelson et al. 1979; Cornelissen "
     "2014).",
     "Figures use the Okabe–Ito colour-blind-safe palette (Wong 2011).",
@@ -395,9 +395,9 @@ def _exponents(rec: xr.Dataset | None) -> str:
         "not a diagnosis.</strong></p></div></section>")
 
 
-def _rhythm_tables(table: pd.DataFrame | None) -> str:
+def _circadian_tables(table: pd.DataFrame | None) -> str:
     if table is None or table.empty:
-        return ("<p>No day/night table: run <code>tfhrv rhythm</code> on the scan file, or the "
+        return ("<p>No day/night table: run <code>tfhrv circadian</code> on the scan file, or the "
                 "record is too short.</p>")
     t = table.copy()
     t["day"] = t["day"].astype(str)
@@ -527,19 +527,26 @@ def _calibration_model(tree: xr.DataTree) -> str:
     return model if model in _CALIBRATION_TEXT else "powerlaw"
 
 
-def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = None,
-                 dpi: float = 110.0) -> str:
+def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None = None,
+                 dpi: float = 110.0, progress=None, started: float | None = None) -> str:
     """The HTML report of one scan, as a string.
 
     Parameters
     ----------
     tree : xarray.DataTree
-        Output of :func:`tfhrv.dataset.build.scan`, optionally with the ``/rhythm`` group.
-    rhythm_table : pandas.DataFrame, optional
-        Output of :func:`tfhrv.circadian.days.rhythm_table`; by default the ``/rhythm`` group of
-        ``tree`` is used when present.
+        Output of :func:`tfhrv.dataset.build.scan`, optionally with the ``/circadian`` group.
+    circadian_table : pandas.DataFrame, optional
+        Output of :func:`tfhrv.circadian.days.circadian_table`; by default the ``/circadian``
+        group of ``tree`` is used when present.
     dpi : float, default 110
         Resolution of the embedded PNG figures.
+    progress : tfhrv.core.progress.Progress, optional
+        Told each figure (default: silent).
+    started : float, optional
+        ``time.perf_counter()`` when the work behind the report began (reading the
+        recording); the footer then gives the time from there, as the command's own run
+        time.  Without it, the footer gives the time to draw the figures and write the
+        HTML, and says so.
 
     Returns
     -------
@@ -552,24 +559,28 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
 
     t0 = time.perf_counter()
     rec = _ds(tree, "record")
-    if rhythm_table is None and "rhythm" in tree.children:
-        rhythm_table = tree["rhythm"].to_dataset().to_dataframe().reset_index(drop=True)
+    if circadian_table is None and "circadian" in tree.children:
+        circadian_table = tree["circadian"].to_dataset().to_dataframe().reset_index(drop=True)
     rid = str(tree.attrs.get("record_id", ""))
     caution = _e(CAUTION)
-    figs = {name: _figure(func(tree), dpi, alt, cap) for name, func, alt, cap in (
+    from tfhrv.core.progress import SILENT
+
+    figure_list = (
         ("overview", plots.overview, "NN intervals and exponent tracks over time",
          "NN intervals (grey), 5-min mean (black), removed beats (ticks), gaps (grey spans), "
          "non-stationary windows (orange strip) and night/rest period (blue); below, α1 of "
          "5-min windows and the long-window exponent as α with calibrated 95 % intervals."),
         ("scale_short", plots.scale_map, "time by scale map of the local DFA exponent",
          "Local DFA exponent α(n) per 5-min window and box size; white = 1 (1/f), blue "
-         "towards 0.5 (uncorrelated), red towards 1.5 (Brownian-like); grey = no estimate."),
+         "below (towards 0.5, uncorrelated), red above (towards 1.5, Brownian-like); grey = "
+         "no estimate. The colour range is fitted to this record's values and stated above "
+         "the map (tfhrv figures --alpha-range fixes it to compare records)."),
         ("scale_long", lambda t: plots.scale_map(t, tier="long"),
          "time by scale map of the local DFA exponent, long windows",
          "The same for 4-h windows (1-h hop), reaching longer box sizes."),
         ("stationarity", plots.stationarity_timeline, "stationarity category per window",
          "Stationarity category and primary estimator of every window."),
-        ("rhythm", plots.rhythm, "exponents against clock time with cosinor fits",
+        ("circadian", plots.circadian, "exponents against clock time with cosinor fits",
          "Exponents against the 24-h clock with a single-component cosinor; the band is "
          "pointwise from the least-squares covariance and too narrow for autocorrelated "
          "windows."),
@@ -580,7 +591,9 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
          "F(n) with the α1, α2 and long-range lines; below, the local slope."),
         ("logscale", plots.logscale, "wavelet log-scale diagram",
          "y_j with ±1.96 SD bars and the weighted line over the octaves used."),
-    )}
+    )
+    figs = {name: _figure(func(tree), dpi, alt, cap) for name, func, alt, cap in
+            (progress or SILENT).track(figure_list, total=len(figure_list), label="figures")}
     created = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
     refs = "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES)
     calibration = _CALIBRATION_TEXT[_calibration_model(tree)]
@@ -601,21 +614,30 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
         figs["overview"], figs["scale_short"], figs["scale_long"], figs["stationarity"],
         "<h3>Whole-record fits</h3>", figs["spectrum"], figs["dfa"], figs["logscale"],
         "</section>",
-        "<section id=\"rhythm\"><h2>Day/night contrasts and 24-h rhythm</h2>",
-        figs["rhythm"], _rhythm_tables(rhythm_table), "</section>",
+        "<section id=\"circadian\"><h2>Day/night contrasts and 24-h rhythm</h2>",
+        figs["circadian"], _circadian_tables(circadian_table), "</section>",
         _decision_table(tree),
         f"<section id=\"methods\"><h2>Methods</h2><ul>{methods}</ul>"
         f"<h3>References</h3><ul class=\"refs\">{refs}</ul></section>",
         _provenance(tree),
         f"<div id=\"caution-bottom\" class=\"caution\" role=\"note\">{caution}</div>",
-        f"<footer>Built in {time.perf_counter() - t0:.1f} s by tfhrv {_e(__version__)}."
+        f"<footer>{_e(_build_time(t0, started))} by tfhrv {_e(__version__)}."
         "</footer></body></html>",
     ]
     return "\n".join(parts)
 
 
+def _build_time(t0: float, started: float | None) -> str:
+    now = time.perf_counter()
+    if started is not None:
+        return (f"Analysis and report took {now - started:.1f} s (reading, cleaning, "
+                "scanning, circadian analysis, figures and HTML)")
+    return f"Figures and HTML built in {now - t0:.1f} s (the analysis before it not counted)"
+
+
 def write_report(tree: xr.DataTree, path: str | Path, /, *,
-                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0) -> Path:
+                 circadian_table: pd.DataFrame | None = None, dpi: float = 110.0,
+                 progress=None, started: float | None = None) -> Path:
     """Build the report and write it atomically (temporary file, then ``os.replace``).
 
     Returns
@@ -625,5 +647,8 @@ def write_report(tree: xr.DataTree, path: str | Path, /, *,
     """
     from tfhrv.dataset.netcdf import atomic_write
 
-    text = build_report(tree, rhythm_table=rhythm_table, dpi=dpi)
+    text = build_report(tree, circadian_table=circadian_table, dpi=dpi, progress=progress,
+                        started=started)
+    if progress is not None:
+        progress.stage(f"write {path}")
     return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
