@@ -251,7 +251,11 @@ def _cmd_circadian(args: argparse.Namespace) -> int:
     opt = _circadian_options(args)
     log = _sleep_log(args, tree.attrs.get("record_id", ""))
     progress.stage("day/night contrasts (block bootstrap) and cosinor")
-    table = circadian_table(tree, options=opt, sleep_log=log)
+    try:
+        table = circadian_table(tree, options=opt, sleep_log=log)
+    except InsufficientDataError as exc:
+        raise InsufficientDataError(f"{path}: the record is too short for the circadian "
+                                    f"analysis: {exc}") from None
     csv_path = Path(args.csv) if args.csv else path.with_suffix(".circadian.csv")
     progress.stage(f"write {csv_path} and the /circadian group of {path}")
     atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
@@ -280,14 +284,41 @@ def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None):
     import xarray as xr
 
     from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
+    from tfhrv.core.errors import InsufficientDataError
 
     tree = _scan_recording(rec, options, progress, what="a report")
     copt = circadian_options or CircadianOptions()
     progress.stage("day/night contrasts (block bootstrap) and cosinor")
-    table = circadian_table(tree, options=copt, sleep_log=sleep_log)
+    try:
+        table = circadian_table(tree, options=copt, sleep_log=sleep_log)
+    except InsufficientDataError as exc:  # a short record: the report says why, without it
+        tree.attrs["circadian_skipped"] = f"record too short for the circadian analysis: {exc}"
+        progress.note(f"no circadian analysis for {rec.source or rec.record_id}: {exc}")
+        return tree, None
     tree["/circadian"] = xr.DataTree(circadian_dataset(table, copt, tree=tree,
                                                        sleep_log=sleep_log))
     return tree, table
+
+
+def _cmd_export(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from tfhrv.dataset.netcdf import open_tree
+    from tfhrv.dataset.table import TABLE_SUFFIXES, write_window_table
+
+    path = Path(args.scan_file)
+    if not path.is_file():
+        raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    _check_output(args.output, TABLE_SUFFIXES)
+    progress = _progress(args)
+    progress.stage(f"read {path}")
+    tree = open_tree(path)
+    tiers = ("short", "long") if args.tier == "both" else (args.tier,)
+    progress.stage(f"write {args.output}")
+    table, dictionary = write_window_table(tree, args.output, tiers=tiers)
+    print(f"wrote {table} (one row per window, {'/'.join(tiers)} tier) and its column "
+          f"dictionary {dictionary}")
+    return 0
 
 
 def _cmd_figures(args: argparse.Namespace) -> int:
@@ -362,7 +393,9 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     progress.stage(f"write {out / 'sw01_day_worker.nc'}")
     write_tree(tree, out / "sw01_day_worker.nc")
     atomic_csv = out / "sw01_day_worker.circadian.csv"
-    atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
+    if table is not None:
+        atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False,
+                                                          float_format="%.6g"))
     report = write_report(tree, out / "sw01_day_worker_report.html", circadian_table=table,
                           dpi=args.dpi, progress=progress, started=t0)
     print(f"verdict: {tree['/record'].attrs['verdict']}")
@@ -469,6 +502,18 @@ def build_parser() -> argparse.ArgumentParser:
         _add_circadian_options(p)
         p.add_argument("--csv", help="table output (default: SCAN.circadian.csv)")
         p.set_defaults(func=_cmd_circadian if verb == "circadian" else _cmd_rhythm)
+
+    p = sub.add_parser("export", help="per-window values of a scan as CSV or Parquet",
+                       description="Writes one row per window of a scan file (time, clock "
+                       "hour, quality, stationarity category, primary estimator, every "
+                       "exponent with its calibrated interval, SE and fitted slope) as CSV or "
+                       "Parquet for spreadsheets and R, with a sidecar TABLE.dictionary.csv "
+                       "giving each column's unit and meaning. " + CAUTION)
+    p.add_argument("scan_file", help="file written by tfhrv scan (.nc)")
+    p.add_argument("-o", "--output", required=True, help="table file (.csv or .parquet)")
+    p.add_argument("--tier", choices=("short", "long", "both"), default="both",
+                   help="which windows (both: one table with a tier column)")
+    p.set_defaults(func=_cmd_export)
 
     p = sub.add_parser("figures", help="all figures of a scan file as PNG/SVG",
                        description="Renders the overview, spectrum, DFA, wavelet log-scale "

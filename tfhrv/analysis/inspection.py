@@ -203,6 +203,10 @@ def format_inspection(ins: Inspection, /) -> str:
     v = a.verdict
     lines.append(f"FFT slope     {v.verdict.upper()}   (classical 1e-4 to 1e-2 Hz whole-record "
                  f"slope; recommended estimator: {v.recommended})")
+    lines.append(" " * 14 + "(the recommendation is for the whole-record long-range slope; "
+                 "each window's primary")
+    lines.append(" " * 14 + "estimator is chosen separately, by its stationarity category and "
+                 "narrowest interval: tfhrv scan)")
     for r in v.reasons:
         lines.append(f"  reason      {r}")
     for c in v.cautions:

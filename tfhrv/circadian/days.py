@@ -163,6 +163,12 @@ def _periods(tree: xr.DataTree, tier: str, opt: CircadianOptions, sleep_log):
     else:
         nn = tree["/short"]["nn_mean"].values
         t_short = tree["/short"]["elapsed"].values / 3600.0
+        span = float(np.ptp(t_short)) if t_short.size else 0.0
+        if span < opt.rest_hours:
+            raise InsufficientDataError(
+                f"the inferred rest period needs at least {opt.rest_hours:g} h of 5-min "
+                f"windows ({span:.1f} h here); give the clock start (--start HH:MM) for clock "
+                "windows, or a sleep log")
         start_h = float(tree["/short"]["clock_hour"].values[0] - t_short[0]) % 24 if (
             "clock_hour" in tree["/short"].coords) else 0.0
         rests = infer_rest_periods(t_short, nn, length_hours=opt.rest_hours,
@@ -311,8 +317,32 @@ def circadian_dataset(table: pd.DataFrame, options: CircadianOptions, *,
     return ds
 
 
+#: unit of each variable of :data:`VARIABLES` (exponents are dimensionless)
+UNITS = {"nn_mean": "ms", "nn_sd": "ms", "lf_power": "ms²", "hf_power": "ms²"}
+
+
+def decimals(variable: str, /) -> int:
+    """Decimals a table shows for a variable: 0 for ms and ms², 2 for exponents."""
+    return 0 if variable in UNITS else 2
+
+
+def fixed(v: float, digits: int = 2, /) -> str:
+    """``v`` with ``digits`` decimals; 'n/a' when not finite; never '-0' or '-0.00'.
+
+    Examples
+    --------
+    >>> fixed(-0.001), fixed(-0.4, 0), fixed(float("nan")), fixed(-1.234)
+    ('0.00', '0', 'n/a', '-1.23')
+    """
+    v = float(v)
+    if not np.isfinite(v):
+        return "n/a"
+    text = f"{v:.{digits}f}"
+    return text[1:] if text.startswith("-") and float(text) == 0 else text
+
+
 def _fmt(v: float, digits: int = 2) -> str:
-    return "n/a" if not np.isfinite(v) else f"{v:.{digits}f}"
+    return fixed(v, digits)
 
 
 def _period_label(source: str, options: CircadianOptions) -> str:
@@ -333,26 +363,37 @@ def _clock(h: float) -> str:
 
 
 def format_circadian(table: pd.DataFrame, /) -> str:
-    """Compact text table of the pooled rows (one line per variable)."""
+    """Compact text table of the pooled rows (one line per variable), with units."""
     pooled = table[table["day"] == "all"]
-    head = (f"{'variable':<19} {'day':>8} {'night':>8} {'night-day [95% CI]':>24} "
-            f"{'g':>6} {'MESOR':>8} {'amplitude [CI]':>20} {'acrophase [CI]':>21} {'p':>8}")
-    lines = [f"day/night from: {pooled['period_source'].iloc[0]}; acrophase as "
-             f"{pooled['acrophase_reference'].iloc[0]}", head, "-" * len(head)]
+    clock = str(pooled["acrophase_reference"].iloc[0]) == "clock" if len(pooled) else True
+    head = ["variable (tier)", "unit", "day", "night", "night-day [95% CI]", "g", "MESOR",
+            "amplitude [95% CI]", "acrophase [95% CI]" if clock else "acrophase h [95% CI]",
+            "p"]
+    rows = []
     for _, r in pooled.iterrows():
-        digits = 0 if r["variable"] in ("nn_mean", "nn_sd", "lf_power", "hf_power") else 2
-        name = f"{r['variable']} ({r['tier']})"
+        digits = decimals(r["variable"])
         diff = (f"{_fmt(r['difference'], digits)} [{_fmt(r['difference_low'], digits)}, "
                 f"{_fmt(r['difference_high'], digits)}]")
         amp = (f"{_fmt(r['amplitude'], digits)} [{_fmt(r['amplitude_low'], digits)}, "
                f"{_fmt(r['amplitude_high'], digits)}]")
-        clock = r["acrophase_reference"] == "clock"
         ph = (f"{_clock(r['acrophase_h'])} [{_clock(r['acrophase_low'])}-"
               f"{_clock(r['acrophase_high'])}]" if clock else
-              f"{_fmt(r['acrophase_h'], 1)} h [{_fmt(r['acrophase_low'], 1)}-"
+              f"{_fmt(r['acrophase_h'], 1)} [{_fmt(r['acrophase_low'], 1)}-"
               f"{_fmt(r['acrophase_high'], 1)}]")
         p = "n/a" if not np.isfinite(r["cosinor_p"]) else f"{r['cosinor_p']:.2g}"
-        lines.append(f"{name:<19} {_fmt(r['day_mean'], digits):>8} "
-                     f"{_fmt(r['night_mean'], digits):>8} {diff:>24} {_fmt(r['effect_size']):>6} "
-                     f"{_fmt(r['mesor'], digits):>8} {amp:>20} {ph:>21} {p:>8}")
-    return "\n".join(lines)
+        rows.append([f"{r['variable']} ({r['tier']})", UNITS.get(r["variable"], "1"),
+                     _fmt(r["day_mean"], digits), _fmt(r["night_mean"], digits), diff,
+                     _fmt(r["effect_size"]), _fmt(r["mesor"], digits), amp, ph, p])
+    widths = [max(len(x[i]) for x in [head, *rows]) for i in range(len(head))]
+
+    def line(cells: list[str]) -> str:
+        return "  ".join(c.ljust(w) if i < 2 else c.rjust(w)
+                         for i, (c, w) in enumerate(zip(cells, widths, strict=True))).rstrip()
+
+    src = pooled["period_source"].iloc[0] if len(pooled) else "n/a"
+    ref = pooled["acrophase_reference"].iloc[0] if len(pooled) else "n/a"
+    out = [f"day/night from: {src}; acrophase as {ref}; g = Hedges' effect size; p = "
+           "zero-amplitude test of the 24-h cosinor; unit 1 = dimensionless", line(head)]
+    out.append("-" * len(out[-1]))
+    out += [line(r) for r in rows]
+    return "\n".join(out)

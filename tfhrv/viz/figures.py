@@ -700,8 +700,9 @@ def circadian(tree: xr.DataTree, /):
         if r is not None:
             ax.set_ylim(max(r[0], -0.5), min(r[1], 3.0))
         ax.set_ylabel(r"$\alpha$ (dimensionless)")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
-                  handlelength=1.4)
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
+                      handlelength=1.4)
     from matplotlib.ticker import FixedLocator, FuncFormatter
 
     axes[1].xaxis.set_major_locator(FixedLocator(np.arange(0, 25, 3)))

@@ -196,7 +196,10 @@ def _num(value, digits: int = 2, *, scale: float = 1.0, unit: str = "") -> str:
         return "n/a"
     if not np.isfinite(v):
         return "n/a"
-    return f"{v * scale:.{digits}f}{unit}"
+    text = f"{v * scale:.{digits}f}"
+    if text.startswith("-") and float(text) == 0:  # no "-0" or "-0.00"
+        text = text[1:]
+    return text + unit
 
 
 def _scalar(ds: xr.Dataset | None, name: str) -> float:
@@ -312,7 +315,37 @@ def _quality(rec: xr.Dataset | None) -> str:
     return f"<section id=\"quality\"><h2>Data quality</h2>{out}</section>"
 
 
-def _verdict(rec: xr.Dataset | None) -> str:
+_RECOMMENDED_WHY = {
+    "spectral": "the record is fit, so the classical FFT slope itself",
+    "wavelet": "the trend-robust wavelet slope, since the record is not fit for the FFT slope",
+    "dfa": "DFA, since the record behaves as a motion (wavelet β > 1.5)",
+    "none": "none: no long-range exponent can be estimated on a record this short",
+}
+
+
+def _recommendation_note(tree: xr.DataTree | None, recommended: str) -> str:
+    """Why the whole-record recommendation can differ from the windows' primary estimators."""
+    counts = ""
+    long = _ds(tree, "long") if tree is not None else None
+    if long is not None and "estimator" in long and long.sizes.get("time", 0):
+        from tfhrv.analysis.policy import ESTIMATORS
+
+        codes = np.asarray(long["estimator"].values, int)
+        n = {e: int(np.sum(codes == i)) for i, e in enumerate(ESTIMATORS)}
+        parts = [f"{e} {k}" for e, k in n.items() if k and e != "none"]
+        if parts:
+            counts = (f" In this record the {codes.size} long windows chose: "
+                      f"{', '.join(parts)}" + (f" ({n['none']} without an estimate)"
+                                                if n.get("none") else "") + ".")
+    why = _RECOMMENDED_WHY.get(recommended, recommended)
+    return ("The recommendation is for the whole-record long-range slope (1e-4 to 1e-2 Hz) "
+            f"and follows the verdict and the record's class: {why}. Each window's primary "
+            "estimator is chosen separately, from that window's stationarity category and "
+            "the narrowest calibrated interval among the estimators valid there (decision "
+            f"table below), so the two can differ.{counts}")
+
+
+def _verdict(rec: xr.Dataset | None, tree: xr.DataTree | None = None) -> str:
     va = _verdict_attrs(rec)
     verdict = rec.attrs.get("verdict", "n/a") if rec is not None else "n/a"
     reasons = _json(va.get("reasons", ""), [])
@@ -327,18 +360,53 @@ def _verdict(rec: xr.Dataset | None) -> str:
 
     out = (f"<p>Verdict: <strong>{_e(verdict)}</strong>. "
            f"{_e(_VERDICT_WORDS.get(verdict, ''))} Recommended estimator: "
-           f"<strong>{_e(va.get('recommended_estimator', 'n/a'))}</strong>.</p>")
+           f"<strong>{_e(va.get('recommended_estimator', 'n/a'))}</strong>.</p>"
+           f"<p>{_e(_recommendation_note(tree, str(va.get('recommended_estimator', ''))))}</p>")
     if band.size == 2:
         out += (f"<p>Band judged: {band[0]:.2g}–{band[1]:.2g} Hz (the classical 24-h "
                 "power-law band, common practice).</p>")
     out += "<h3>Reasons (each makes the record unfit)</h3>" + items(reasons)
     out += "<h3>Cautions</h3>" + items(cautions)
     if isinstance(checks, dict) and checks:
-        rows = [[_e(k.replace("_", " ")),
-                 _e(f"{v:.4g}" if isinstance(v, float) else v)] for k, v in checks.items()]
+        rows = [[_e(_CHECKS.get(k, (k.replace("_", " "), None))[0]), _e(_check_value(k, v))]
+                for k, v in checks.items()]
         out += "<h3>Checks behind the verdict</h3>" + _table(["check", "value"], rows,
                                                             numeric={1})
     return f"<section id=\"verdict\"><h2>FFT-slope fitness verdict</h2>{out}</section>"
+
+
+def _pvalue(v: float) -> str:
+    return "< 0.001" if v < 0.001 else f"{v:.3f}"
+
+
+#: check of the verdict -> (label, formatter of a finite value)
+_CHECKS = {
+    "cycles_of_lowest_frequency": ("periods of the lowest fitted frequency in the record",
+                                   lambda v: f"{v:.1f}"),
+    "coverage": ("analysable share of the record", lambda v: f"{100 * v:.1f} %"),
+    "longest_gap_s": ("longest unreadable stretch",
+                      lambda v: f"{v / 60:.1f} min" if v >= 60 else f"{v:.0f} s"),
+    "ectopic_share": ("non-sinus (ectopic) beats",
+                      lambda v: f"{100 * v:.2f} %" if v >= 1e-4 or v == 0 else "< 0.01 %"),
+    "nonstationary_share": ("long windows not stationary", lambda v: f"{100 * v:.0f} %"),
+    "r_squared": ("R² of the log-log spectral fit", lambda v: f"{v:.3f}"),
+    "lack_of_fit_pvalue": ("lack-of-fit p (points vs one line)", _pvalue),
+    "excess_scatter": ("RMS departure beyond periodogram scatter",
+                       lambda v: f"{v:.3f} decade"),
+    "curvature_pvalue": ("curvature p (quadratic term)", _pvalue),
+    "beta_spectral": ("β from the FFT slope (calibrated)", lambda v: f"{v:.2f}"),
+    "beta_wavelet": ("β from the wavelet (calibrated)", lambda v: f"{v:.2f}"),
+    "process_class": ("class by wavelet β (fGn < 1 < fBm)", str),
+}
+
+
+def _check_value(key: str, value) -> str:
+    """A check of the verdict with its unit and a sensible number of digits."""
+    fmt = _CHECKS.get(key, (None, lambda v: f"{v:.3g}"))[1]
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        v = float(value)
+        return fmt(v) if np.isfinite(v) else "n/a"
+    return str(value)
 
 
 def _fit_range(rec: xr.Dataset | None, name: str) -> str:
@@ -371,7 +439,7 @@ def _with_ci(v, lo, hi, digits: int) -> str:
     return f"{_num(v, digits)} [{_num(lo, digits)}, {_num(hi, digits)}]"
 
 
-_UNITS = {"nn_mean": "ms", "nn_sd": "ms", "lf_power": "ms²", "hf_power": "ms²"}
+from tfhrv.circadian.days import UNITS as _UNITS  # noqa: E402  (one list of units)
 
 
 def _exponents(rec: xr.Dataset | None) -> str:
@@ -395,10 +463,12 @@ def _exponents(rec: xr.Dataset | None) -> str:
         "not a diagnosis.</strong></p></div></section>")
 
 
-def _circadian_tables(table: pd.DataFrame | None) -> str:
+def _circadian_tables(table: pd.DataFrame | None, skipped: str = "") -> str:
     if table is None or table.empty:
-        return ("<p>No day/night table: run <code>tfhrv circadian</code> on the scan file, or the "
-                "record is too short.</p>")
+        if skipped:
+            return f"<p>No day/night table: {_e(skipped)}.</p>"
+        return ("<p>No day/night table: run <code>tfhrv circadian</code> on the scan file, or "
+                "the record is too short.</p>")
     t = table.copy()
     t["day"] = t["day"].astype(str)
     pooled = t[t["day"] == "all"]
@@ -609,13 +679,15 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
         f"<h1>Scaling analysis of record {_e(rid)}</h1>",
         f"<p class=\"sub\">tfhrv {_e(__version__)} · report built {_e(created)}</p>",
         f"<nav><ol>{nav}</ol></nav>",
-        _summary(tree, rec), _quality(rec), _verdict(rec), _exponents(rec),
+        _summary(tree, rec), _quality(rec), _verdict(rec, tree), _exponents(rec),
         "<section id=\"time-resolved\"><h2>Time-resolved figures</h2>",
         figs["overview"], figs["scale_short"], figs["scale_long"], figs["stationarity"],
         "<h3>Whole-record fits</h3>", figs["spectrum"], figs["dfa"], figs["logscale"],
         "</section>",
         "<section id=\"circadian\"><h2>Day/night contrasts and 24-h rhythm</h2>",
-        figs["circadian"], _circadian_tables(circadian_table), "</section>",
+        figs["circadian"],
+        _circadian_tables(circadian_table, str(tree.attrs.get("circadian_skipped", ""))),
+        "</section>",
         _decision_table(tree),
         f"<section id=\"methods\"><h2>Methods</h2><ul>{methods}</ul>"
         f"<h3>References</h3><ul class=\"refs\">{refs}</ul></section>",
