@@ -429,8 +429,8 @@ def _alpha_colours(values: np.ndarray, alpha_range: tuple[float, float] | None):
             mid = (hi + lo) / 2
             lo, hi = mid - 0.1, mid + 0.1
         lo, hi = np.floor(lo * 20) / 20, np.ceil(hi * 20) / 20
-        how = (f"range fitted to the data ({ALPHA_RANGE_PERCENTILES[0]:g}th–"
-               f"{ALPHA_RANGE_PERCENTILES[1]:g}th percentile): {lo:.2f}–{hi:.2f}")
+        how = (f"range fitted to the data (percentiles {ALPHA_RANGE_PERCENTILES[0]:g}–"
+               f"{ALPHA_RANGE_PERCENTILES[1]:g}): {lo:.2f}–{hi:.2f}")
     else:
         lo, hi, how = 0.5, 1.5, "fixed range 0.5–1.5"
     if lo < 1.0 < hi:
