@@ -527,10 +527,13 @@ def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int 
     ax.set_ylabel("DFA box size n (beats)")
     cbar = fig.colorbar(mesh, ax=[ax_top, ax], extend=extend, pad=0.01, aspect=30)
     cbar.set_label(r"local DFA exponent $\alpha(n)$ (dimensionless)")
-    ticks = np.unique(np.round(np.concatenate([
-        np.linspace(norm.vmin, norm.vmax, 5),
-        [1.0] if norm.vmin < 1.0 < norm.vmax else []]), 2))
-    cbar.set_ticks(ticks, labels=[f"{v:.2f}" for v in ticks])
+    ticks = mpl.ticker.MaxNLocator(nbins=6).tick_values(norm.vmin, norm.vmax)
+    ticks = ticks[(ticks >= norm.vmin - 1e-9) & (ticks <= norm.vmax + 1e-9)]
+    if norm.vmin < 1.0 < norm.vmax:
+        step = float(np.min(np.diff(ticks))) if ticks.size > 1 else 1.0
+        ticks = np.append(ticks[np.abs(ticks - 1.0) >= step / 2], 1.0)
+    ticks = np.unique(np.round(ticks, 2))
+    cbar.set_ticks(ticks, labels=[f"{v:g}" for v in ticks])
     cbar.ax.tick_params(labelsize=8)
     rest = _rest(tree)
     ax_top.set_ylim(0, 1)
