@@ -98,6 +98,12 @@ def test_text_progress_bar_and_silent_default():
     text = out.getvalue()
     assert "\r" in text and "4/4" in text and text.endswith("\n")
     assert list(SILENT.track([1, 2], total=2, label="x")) == [1, 2]
+    # absolute counts, as dask's scheduler feed reports them (tfhrv.cohort.run._dask_bar)
+    out = io.StringIO()
+    p = TextProgress(out, interactive=True, interval_s=0.0)
+    p.start(5, "records")
+    p.update(3, 5)
+    assert out.getvalue().rsplit("\r", 1)[-1].count("3/5") == 1
 
 
 def test_progress_goes_to_stderr_and_json_stays_strict(recording_file, capsys):

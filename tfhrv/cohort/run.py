@@ -616,9 +616,45 @@ def _progress_line(results: dict, total: int, n_skipped: int, t0: float, res: di
             f"{el // 3600}:{el // 60 % 60:02d}:{el % 60:02d} elapsed | {what}")
 
 
+def _dask_bar(futures: list, client, reporter: Progress):
+    """Drive ``reporter`` from dask's own progress feed (the scheduler's count of finished
+    tasks, as ``distributed``'s text progress bar reads it), in a background thread.
+
+    Returns the thread, or None when the feed cannot be started; a failure of the feed
+    never touches the run (the per-record lines still come from ``as_completed``).
+    """
+    import threading
+
+    try:
+        from distributed.diagnostics.progressbar import TextProgressBar
+    except ImportError:  # pragma: no cover - distributed without diagnostics
+        return None
+
+    class _Feed(TextProgressBar):
+        def _draw_bar(self, remaining, all, **kwargs):  # noqa: A002 - dask's argument name
+            reporter.update(all - remaining, all)
+
+        def _draw_stop(self, **kwargs):
+            pass
+
+    def run() -> None:
+        try:
+            _Feed(futures, scheduler=client.scheduler.address, interval="200ms", start=True)
+        except Exception:  # noqa: BLE001 - progress is never fatal
+            pass
+
+    thread = threading.Thread(target=run, name="tfhrv-dask-progress", daemon=True)
+    thread.start()
+    return thread
+
+
 def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: CohortOptions,
-             results: dict, *, workers: int | None, scheduler: str | None, report) -> None:
-    """Run the records to do, in process or on dask, into ``results``; ``report`` each."""
+             results: dict, *, workers: int | None, scheduler: str | None, report,
+             reporter: Progress = SILENT) -> None:
+    """Run the records to do, in process or on dask, into ``results``; ``report`` each.
+
+    On dask, an interactive ``reporter`` is also driven by dask's own progress feed
+    (:func:`_dask_bar`)."""
     if not todo:
         return
     if scheduler == "sequential" or (scheduler is None and workers == 0):
@@ -642,6 +678,8 @@ def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: Cohor
         futures = {client.submit(_run_one, entry, str(outdir), options, h,
                                  key=f"tfhrv-cohort-{entry.record}-{h[:16]}"): entry
                    for entry, h in todo}
+        feed = (_dask_bar(list(futures), client, reporter)
+                if getattr(reporter, "interactive", False) else None)
         for fut in as_completed(futures):
             entry = futures[fut]
             try:
@@ -653,6 +691,8 @@ def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: Cohor
             fut.release()
             results[entry.record] = res
             report(res)
+        if feed is not None:
+            feed.join(timeout=2.0)
     finally:
         client.close()
         if cluster is not None:
@@ -771,13 +811,13 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
         def one_done(r: dict) -> None:
             if r["status"] == "failed" or not interactive:
                 say(_progress_line(results, len(entries), n_skip, t0, r))
-            reporter.advance()
+            reporter.update(len(results) - n_skip, len(todo))
 
         if todo:
             reporter.start(len(todo), "records")
         try:
             _execute(todo, out, opt, results, workers=workers, scheduler=scheduler,
-                     report=one_done)
+                     report=one_done, reporter=reporter)
         finally:
             if todo and interactive:
                 reporter.finish()

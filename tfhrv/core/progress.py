@@ -40,6 +40,10 @@ class Progress:
     def advance(self, n: int = 1, /) -> None:
         """``n`` more items are done."""
 
+    def update(self, done: int, total: int | None = None, /) -> None:
+        """``done`` items (of ``total``, when it changed) are finished: an absolute count,
+        for a source that reports totals rather than steps (e.g. a dask scheduler)."""
+
     def finish(self) -> None:
         """The current loop is over."""
 
@@ -153,6 +157,13 @@ class TextProgress(Progress):
 
     def advance(self, n: int = 1, /) -> None:
         self._done += int(n)
+        if self.interactive:
+            self._draw()
+
+    def update(self, done: int, total: int | None = None, /) -> None:
+        if total is not None:
+            self._total = max(int(total), 0)
+        self._done = int(done)
         if self.interactive:
             self._draw()
 
