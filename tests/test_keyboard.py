@@ -287,7 +287,7 @@ def test_report_footer_gives_the_run_time_it_measures():
     import time
 
     text = _build_time(time.perf_counter(), started=time.perf_counter() - 12.0)
-    assert text.startswith("Analysis and report took 12.") and "reading" in text
+    assert text.startswith("Analysis and report took 12.") and "start of the command" in text
 
 
 def test_license_is_an_spdx_string():

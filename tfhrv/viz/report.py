@@ -613,9 +613,9 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
     progress : tfhrv.core.progress.Progress, optional
         Told each figure (default: silent).
     started : float, optional
-        ``time.perf_counter()`` when the work behind the report began (reading the
-        recording); the footer then gives the time from there, as the command's own run
-        time.  Without it, the footer gives the time to draw the figures and write the
+        ``time.perf_counter()`` when the work behind the report began (the command line
+        passes its own start); the footer then gives the time from there, the command's
+        own run time.  Without it, the footer gives the time to draw the figures and write the
         HTML, and says so.
 
     Returns
@@ -702,8 +702,9 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
 def _build_time(t0: float, started: float | None) -> str:
     now = time.perf_counter()
     if started is not None:
-        return (f"Analysis and report took {now - started:.1f} s (reading, cleaning, "
-                "scanning, circadian analysis, figures and HTML)")
+        return (f"Analysis and report took {now - started:.1f} s from the start of the "
+                "command (loading, reading, cleaning, scanning, circadian analysis, figures "
+                "and HTML)")
     return f"Figures and HTML built in {now - t0:.1f} s (the analysis before it not counted)"
 
 
