@@ -83,12 +83,14 @@ def scan_file(scanned, tmp_path_factory):
 # ---------------------------------------------------------------- 1. progress
 
 
-def test_scan_reports_every_window_once(scanned):
+def test_scan_reports_every_window_in_each_loop(scanned):
     tree, p = scanned
     n = tree["/short"].sizes["time"] + tree["/long"].sizes["time"]
-    assert p.advanced == n
-    assert [label for label, _ in p.loops] == ["fits, short windows", "fits, long windows"]
-    assert any("battery" in s for s in p.stages) and any("whole-record" in s for s in p.stages)
+    assert [label for label, _ in p.loops] == [
+        "stationarity battery, short windows", "fits, short windows",
+        "stationarity battery, long windows", "fits, long windows"]
+    assert p.advanced == 2 * n  # once per window in the battery, once in the fits
+    assert any("whole-record" in s for s in p.stages)
 
 
 def test_text_progress_bar_and_silent_default():

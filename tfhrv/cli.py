@@ -158,8 +158,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     rec = _read(args)
     progress.stage("clean")
     cleaned = clean(rec)
-    progress.stage("stationarity battery and whole-record fits")
-    ins = inspect_record(cleaned, thresholds=thresholds)
+    ins = inspect_record(cleaned, thresholds=thresholds, progress=progress)
     if args.json:
         print(dumps_strict(inspection_dict(ins), indent=2))
     else:

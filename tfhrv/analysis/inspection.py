@@ -20,6 +20,7 @@ from tfhrv.analysis.windows import (
     tier_stationarity,
     tier_windows,
 )
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.signal.clean import CleanResult
 from tfhrv.stationarity.battery import CATEGORIES
 
@@ -44,19 +45,25 @@ def inspect_record(
     thresholds: FitnessThresholds | None = None,
     n_surrogates: int = 99,
     seed: int = 20100819,
+    progress: Progress = SILENT,
 ) -> Inspection:
-    """Run the stationarity battery on every window of both tiers and judge the record."""
+    """Run the stationarity battery on every window of both tiers and judge the record.
+
+    ``progress`` (default: silent) is told each window and the whole-record stage.
+    """
     tiers = {}
     codes_long = None
     for name, tier in (("short", short), ("long", long)):
         results = tier_stationarity(tier_windows(cleaned, tier), n_surrogates=n_surrogates,
-                                    seed=seed)
+                                    seed=seed, progress=progress,
+                                    label=f"stationarity battery, {name} windows")
         codes = category_codes(results)
         tiers[name] = {"window_s": tier.window_s, "hop_s": tier.hop_s, "n_windows": len(codes),
                        "categories": {c: int(np.sum(codes == i))
                                       for i, c in enumerate(CATEGORIES)}}
         if name == "long":
             codes_long = codes
+    progress.stage("whole-record fits and FFT-slope verdict")
     assessment = assess_record(cleaned, long_categories=codes_long, thresholds=thresholds)
     return Inspection(cleaned, tiers, assessment)
 

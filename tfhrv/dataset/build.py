@@ -181,8 +181,9 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions,
                   progress: Progress = SILENT) -> tuple[xr.Dataset, np.ndarray]:
     rec = cleaned.recording
     windows = tier_windows(cleaned, tier)
-    progress.stage(f"stationarity battery: {len(windows)} {tier.scale} windows")
-    battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed)
+    battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed,
+                                progress=progress,
+                                label=f"stationarity battery, {tier.scale} windows")
     keep = cleaned.keep
     mean_rr = float(np.mean(rec.rr_ms[keep])) / 1000.0 if keep.any() else 0.8
     fs = opt.short_psd_fs_hz if tier.scale == "short" else opt.long_psd_fs_hz
