@@ -4,7 +4,7 @@ Run:  python benchmarks/bench_cohort.py [--n 54] [--days 1] [--workers 1 2] [--d
 
 Writes ``--n`` synthetic records (``tfhrv.synth.simulate_recording``, alternating the
 day-worker and heart-failure profiles, seeds 0..n-1) and a manifest into ``--data`` (kept
-and reused when given), then runs the whole cohort pipeline (read, clean, scan, rhythm,
+and reused when given), then runs the whole cohort pipeline (read, clean, scan, circadian,
 write, study table, comparison, figure, Zarr store) once per worker count into a fresh
 output folder, timing the complete ``run_cohort`` call with time.perf_counter (cluster
 start-up included).  Prints per run: total time, mean time per record inside the worker,

@@ -7,8 +7,8 @@ Usage::
     python scripts/render_figures.py -o DIR --formats png svg --report DIR/report.html
 
 Without a scan file the script reads ``demo_data/sw01_day_worker.csv.gz`` (synthetic:
-nobody was recorded), cleans and scans it, and runs the rhythm analysis; with a scan file
-it adds the ``/rhythm`` group in memory when the file lacks one.  Research use only.
+nobody was recorded), cleans and scans it, and runs the circadian analysis; with a scan file
+it adds the ``/circadian`` group in memory when the file lacks one.  Research use only.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from pathlib import Path
 
 import xarray as xr
 
-from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
+from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
 from tfhrv.dataset.build import scan
 from tfhrv.dataset.netcdf import open_tree
 from tfhrv.io.readers import read_recording
@@ -49,11 +49,11 @@ def main(argv: list[str] | None = None) -> int:
     else:
         tree = scan(clean(read_recording(DEMO)))
         print(f"scanned {DEMO.name} in {time.perf_counter() - t0:.1f} s")
-    if "rhythm" not in tree.children:
+    if "circadian" not in tree.children:
         t1 = time.perf_counter()
-        opt = RhythmOptions()
-        tree["/rhythm"] = xr.DataTree(rhythm_dataset(rhythm_table(tree, options=opt), opt))
-        print(f"rhythm analysis in {time.perf_counter() - t1:.1f} s")
+        opt = CircadianOptions()
+        tree["/circadian"] = xr.DataTree(circadian_dataset(circadian_table(tree, options=opt), opt))
+        print(f"circadian analysis in {time.perf_counter() - t1:.1f} s")
     t1, c1 = time.perf_counter(), time.process_time()
     paths = save_all(tree, args.output, formats=tuple(args.formats), dpi=args.dpi)
     print(f"{len(paths)} figure files in {time.perf_counter() - t1:.1f} s "

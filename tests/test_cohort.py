@@ -22,7 +22,7 @@ import xarray as xr
 from scipy import stats
 
 from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions
-from tfhrv.circadian.days import RhythmOptions
+from tfhrv.circadian.days import CircadianOptions
 from tfhrv.cli import main as cli_main
 from tfhrv.cohort.run import (
     CohortOptions,
@@ -39,7 +39,7 @@ from tfhrv.synth import simulate_recording, write_recording_csv
 
 # Small, fast options: few surrogates and bootstrap resamples (the numbers are still the
 # full pipeline's; only the Monte-Carlo sizes shrink).
-FAST = CohortOptions(scan=ScanOptions(n_surrogates=9), rhythm=RhythmOptions(n_boot=99),
+FAST = CohortOptions(scan=ScanOptions(n_surrogates=9), circadian=CircadianOptions(n_boot=99),
                      n_boot=199)
 PROFILES = ("day-worker", "heart-failure", "day-worker")
 ENV = {**os.environ, "OPENBLAS_NUM_THREADS": "1"}
@@ -124,7 +124,7 @@ def test_failure_isolated_and_outputs_written(sequential, study_dir):
     entries = {e.record: e for e in read_manifest(study_dir / "manifest.csv")}
     for rid in ("s0", "s1", "s2"):
         with h5netcdf.File(out / "records" / f"{rid}.nc", "r") as f:
-            assert set(f.groups) == {"nn", "short", "long", "record", "rhythm"}
+            assert set(f.groups) == {"nn", "short", "long", "record", "circadian"}
             # provenance checked with hashlib, independently of tfhrv.io.file_sha256
             data = (study_dir / "data" / f"{rid}.csv").read_bytes()
             assert f.attrs["source_sha256"] == hashlib.sha256(data).hexdigest()
@@ -142,7 +142,7 @@ def test_study_table_carries_tree_values(sequential, study_dir):
     row = study.set_index("record").loc["s1"]
     with xr.open_datatree(study_dir / "seq" / "records" / "s1.nc", engine="h5netcdf") as t:
         rec = t["/record"].to_dataset()
-        rhythm = t["/rhythm"].to_dataset().to_dataframe()
+        rhythm = t["/circadian"].to_dataset().to_dataframe()
         for name in EXPONENTS:
             np.testing.assert_allclose(row[name], float(rec[name]), rtol=0, atol=0)
             np.testing.assert_allclose([row[name + "_ci_lower"], row[name + "_ci_upper"]],
@@ -198,7 +198,7 @@ def test_parameter_hash_changes_with_options(study_dir):
     e = read_manifest(study_dir / "manifest.csv")[0]
     h = parameter_hash(FAST, e)
     assert h == parameter_hash(CohortOptions(scan=ScanOptions(n_surrogates=9),
-                                             rhythm=RhythmOptions(n_boot=99)), e)
+                                             circadian=CircadianOptions(n_boot=99)), e)
     assert h != parameter_hash(CohortOptions(), e)
     assert h != parameter_hash(FAST, replace(e, start="07:00"))
     assert h == parameter_hash(FAST, replace(e, group="other", extra=()))  # not an input
@@ -211,9 +211,9 @@ def test_killed_run_resumed_on_local_cluster(sequential, study_dir, tmp_path):
     out = tmp_path / "kill"
     code = textwrap.dedent(f"""
         from tfhrv.cohort.run import CohortOptions, run_cohort
-        from tfhrv.circadian.days import RhythmOptions
+        from tfhrv.circadian.days import CircadianOptions
         from tfhrv.analysis.pipeline import ScanOptions
-        opt = CohortOptions(scan=ScanOptions(n_surrogates=9), rhythm=RhythmOptions(n_boot=99),
+        opt = CohortOptions(scan=ScanOptions(n_surrogates=9), circadian=CircadianOptions(n_boot=99),
                             n_boot=199)
         run_cohort({str(study_dir / 'manifest.csv')!r}, {str(out)!r}, workers=0, options=opt)
     """)
@@ -251,7 +251,7 @@ def test_killed_run_resumed_on_local_cluster(sequential, study_dir, tmp_path):
         with xr.open_datatree(out / "records" / f"{rid}.nc", engine="h5netcdf") as tree:
             assert tree["/record"]["alpha1"].size == 1
     rid = sorted({"s0", "s1", "s2"} - first)[0]  # one run on the cluster: same file content
-    for group in ("short", "record", "rhythm"):
+    for group in ("short", "record", "circadian"):
         with (xr.open_dataset(study_dir / "seq" / "records" / f"{rid}.nc", group=group) as a,
               xr.open_dataset(out / "records" / f"{rid}.nc", group=group) as b):
             xr.testing.assert_identical(a, b)

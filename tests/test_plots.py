@@ -189,16 +189,65 @@ def test_scale_map_norm_centred_at_one(tree, figs, tier):
 
     fig = figs[f"scale_map_{tier}"]
     mesh = artist(fig, "local_alpha")
-    assert isinstance(mesh.norm, TwoSlopeNorm)
-    assert (mesh.norm.vmin, mesh.norm.vcenter, mesh.norm.vmax) == (0.5, 1.0, 1.5)
-    assert mesh.norm(1.0) == pytest.approx(0.5)
     la = tree[tier]["local_alpha"].transpose("time", "scale").values
+    # default: the range is fitted to the data (2nd-98th percentile, rounded outwards to
+    # 0.05), centred at alpha = 1 when 1 lies inside it
+    lo, hi = np.nanpercentile(la, [2, 98])
+    assert mesh.norm.vmin <= lo + 1e-9 and mesh.norm.vmax >= hi - 1e-9
+    assert mesh.norm.vmin > lo - 0.05 - 1e-9 and mesh.norm.vmax < hi + 0.05 + 1e-9
+    if mesh.norm.vmin < 1 < mesh.norm.vmax:
+        assert isinstance(mesh.norm, TwoSlopeNorm) and mesh.norm(1.0) == pytest.approx(0.5)
+    fixed = artist(plots.scale_map(tree, tier=tier, alpha_range=(0.5, 1.5)), "local_alpha")
+    assert isinstance(fixed.norm, TwoSlopeNorm)
+    assert (fixed.norm.vmin, fixed.norm.vcenter, fixed.norm.vmax) == (0.5, 1.0, 1.5)
     shown = np.ma.filled(mesh.get_array().astype(float), np.nan).reshape(la.T.shape)
     assert_allclose(shown, la.T, equal_nan=True)
     ax = by_ylabel(fig, "box size")
     assert ax.get_yscale() == "log" and "(beats)" in ax.get_ylabel()
     cbar_labels = [a.get_ylabel() for a in fig.axes]
     assert any("local DFA exponent" in s for s in cbar_labels)
+
+
+def test_scale_map_range_follows_low_exponents(tree):
+    # a record whose local exponents all lie in 0.2-0.4 (as in heart failure, Peng et al.
+    # 1995) must not be one saturated block: the colour range spans the data, on the blue
+    # side of 1 only, and the title says so
+    t = tree.copy()
+    ds = tree["short"].to_dataset()
+    la = ds["local_alpha"].values
+    low = 0.2 + 0.2 * (la - np.nanmin(la)) / (np.nanmax(la) - np.nanmin(la))
+    t["short"] = xr.DataTree(ds.assign(local_alpha=(ds["local_alpha"].dims, low)))
+    fig = plots.scale_map(t)
+    mesh = artist(fig, "local_alpha")
+    assert 0.15 <= mesh.norm.vmin <= 0.25 and 0.35 <= mesh.norm.vmax <= 0.45
+    colours = mesh.cmap(mesh.norm(np.array([0.22, 0.3, 0.38])))
+    assert np.ptp(colours[:, :3], axis=0).max() > 0.3  # visibly different colours
+    assert all(c[2] >= c[0] for c in colours)  # all on the blue side (below alpha = 1)
+    title = " ".join(ax.get_title(loc=loc) for ax in fig.axes for loc in ("left", "center"))
+    assert "fitted to the data" in title and "below α = 1" in title
+    with pytest.raises(ValueError, match="alpha_range"):
+        plots.scale_map(tree, alpha_range=(1.5, 0.5))
+
+
+def test_spectrum_legend_shows_an_open_interval_end(tree):
+    t = tree.copy()
+    rec = tree["record"].to_dataset()
+    ci = rec["beta_spectral_ci"].values.copy()
+    ci[1] = np.nan  # the calibration could not bound the upper end
+    t["record"] = xr.DataTree(rec.assign(beta_spectral_ci=(("bound",), ci)))
+    legend = next(ax.get_legend() for ax in plots.spectrum(t).axes if ax.get_legend())
+    assert f"[{ci[0]:.2f}, open]" in legend.get_title().get_text()
+
+
+def test_dpi_sets_the_png_width(tree, tmp_path):
+    import struct
+
+    fig = plots.logscale(tree)
+    width_in = fig.get_size_inches()[0]
+    for dpi in (50, 120):
+        png = plots.save_figure(fig, tmp_path / f"l{dpi}.png", dpi=dpi).read_bytes()
+        # PNG IHDR: width is the big-endian uint32 at byte 16 (ISO/IEC 15948)
+        assert struct.unpack(">I", png[16:20])[0] == pytest.approx(width_in * dpi, abs=2)
 
 
 def test_scale_map_rejects_unknown_tier(tree):
@@ -238,9 +287,9 @@ def cosine_tree(*, with_clock: bool = True) -> xr.DataTree:
     return xr.DataTree.from_dict({"/": xr.Dataset(attrs=root), "/short": short})
 
 
-def test_rhythm_recovers_an_exact_cosine():
+def test_circadian_recovers_an_exact_cosine():
     # exact theory: least squares on a noise-free cosine returns it (Nelson et al. 1979)
-    fig = plots.rhythm(cosine_tree())
+    fig = plots.circadian(cosine_tree())
     curve = artist(fig, "cosinor_short")
     x, y = curve.get_xdata(), curve.get_ydata()
     assert x[np.argmax(y)] == pytest.approx(15.0)
@@ -256,8 +305,8 @@ def test_rhythm_recovers_an_exact_cosine():
     assert spans and spans[0] == pytest.approx(0.0)
 
 
-def test_rhythm_short_record_has_no_cosinor(figs):
-    fig = figs["rhythm"]
+def test_circadian_short_record_has_no_cosinor(figs):
+    fig = figs["circadian"]
     assert any("no cosinor" in t.get_text() for ax in fig.axes for t in ax.texts)
     assert not [a for ax in fig.axes for a in ax.get_lines() if a.get_gid() == "cosinor_short"]
 
@@ -271,7 +320,7 @@ def test_figures_survive_missing_groups_and_nans(tree):
     for var in ("alpha1", "alpha1_ci", "local_alpha"):
         short[var] = short[var] * np.nan
     nan_tree["short"] = xr.DataTree(short)
-    for func in (plots.overview, plots.scale_map, plots.rhythm):
+    for func in (plots.overview, plots.scale_map, plots.circadian):
         fig = func(nan_tree)
         assert any(t.get_text() == plots.FOOTER for t in fig.texts)
 

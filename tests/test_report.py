@@ -20,7 +20,7 @@ import xarray as xr
 from tfhrv.analysis.pipeline import ScanOptions
 from tfhrv.analysis.policy import DECISION_TABLE
 from tfhrv.analysis.windows import LONG
-from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
+from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
 from tfhrv.core.caution import CAUTION
 from tfhrv.dataset.build import scan
 from tfhrv.signal.clean import clean
@@ -55,12 +55,12 @@ def parse(doc: str) -> Collector:
 
 @pytest.fixture(scope="module")
 def tree() -> xr.DataTree:
-    """A 9-h evening/night synthetic record with its /rhythm group, scanned once."""
+    """A 9-h evening/night synthetic record with its /circadian group, scanned once."""
     sim = simulate_recording(days=0.375, start=dt.datetime(2024, 3, 4, 18, 0), rng=2,
                              record_id="report-test")
     t = scan(clean(sim.recording), options=ScanOptions(long=replace(LONG, hop_s=7200.0)))
-    opt = RhythmOptions(n_boot=99)
-    t["/rhythm"] = xr.DataTree(rhythm_dataset(rhythm_table(t, options=opt), opt))
+    opt = CircadianOptions(n_boot=99)
+    t["/circadian"] = xr.DataTree(circadian_dataset(circadian_table(t, options=opt), opt))
     return t
 
 
@@ -127,7 +127,7 @@ def test_verdict_and_decision_table_from_the_tree(tree, doc):
     assert f"{float(rec['alpha1']):.2f}" in text
 
 
-def test_rhythm_table_rows(tree, doc):
+def test_circadian_table_rows(tree, doc):
     text = " ".join(parse(doc).text)
     assert "alpha1 (short)" in text and "nn_mean_ms (short)" in text
     assert "Day and night from" in text
@@ -146,9 +146,9 @@ def test_text_from_files_is_escaped(tree):
     assert evil in " ".join(parse(out).text)
 
 
-def test_without_rhythm_and_clock(tree, tmp_path):
+def test_without_circadian_and_clock(tree, tmp_path):
     t = tree.copy()
-    del t["rhythm"]
+    del t["circadian"]
     for tier in ("short", "long"):
         ds = t[tier].to_dataset()
         td = (ds["elapsed"].values * 1e3).astype("int64").astype("timedelta64[ms]")

@@ -24,7 +24,7 @@ _LAZY = {
     "TfhrvWarning": "tfhrv.core.errors",
     "inspect_record": "tfhrv.analysis.inspection",
     "read_recording": "tfhrv.io.readers",
-    "rhythm_table": "tfhrv.circadian.days",
+    "circadian_table": "tfhrv.circadian.days",
     "scan": "tfhrv.dataset.build",
 }
 

@@ -14,8 +14,8 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import argparse  # noqa: E402
-import json  # noqa: E402
 import sys  # noqa: E402
+import time  # noqa: E402
 import warnings  # noqa: E402
 from collections.abc import Sequence  # noqa: E402
 
@@ -23,6 +23,10 @@ from tfhrv.core.caution import CAUTION  # noqa: E402
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError, TfhrvWarning  # noqa: E402
 
 __all__ = ["main"]
+
+#: when the command started (before the lazy imports of numpy, xarray, matplotlib): the
+#: report's footer gives the time from here, i.e. the command's own run time
+_STARTED = time.perf_counter()
 
 
 def _add_reader_options(p: argparse.ArgumentParser) -> None:
@@ -72,6 +76,64 @@ def _add_scan_options(p: argparse.ArgumentParser) -> None:
                    help="non-stationary long windows, %% (50; common practice)")
 
 
+def _add_circadian_options(p: argparse.ArgumentParser) -> None:
+    """The day/night options shared by circadian, report, demo and cohort."""
+    g = p.add_argument_group("day and night (circadian analysis)")
+    g.add_argument("--night", type=float, nargs=2, default=(0.0, 6.0), metavar=("FROM", "TO"),
+                   help="night clock window in hours (0 6; common practice)")
+    g.add_argument("--day", type=float, nargs=2, default=(10.0, 20.0), metavar=("FROM", "TO"),
+                   help="day clock window in hours (10 20; common practice)")
+    g.add_argument("--period", choices=("auto", "clock", "inferred"), default="auto",
+                   help="where day and night come from (auto: clock if known, else inferred)")
+    g.add_argument("--rest-hours", type=float, default=6.0,
+                   help="length of the inferred rest period, h (6)")
+    g.add_argument("--sleep-log", help="CSV with record,rest_start,rest_end (takes precedence "
+                   "over the clock windows)")
+
+
+def _circadian_options(args: argparse.Namespace):
+    from tfhrv.circadian.days import CircadianOptions
+
+    return CircadianOptions(night_hours=tuple(args.night), day_hours=tuple(args.day),
+                            period=args.period, rest_hours=args.rest_hours)
+
+
+def _sleep_log(args: argparse.Namespace, record_id: str):
+    from tfhrv.circadian.days import read_sleep_log
+
+    return read_sleep_log(args.sleep_log, record_id) if args.sleep_log else None
+
+
+def _add_feedback_options(p: argparse.ArgumentParser) -> None:
+    """--progress / --quiet: progress on stderr (default: only when stderr is a terminal)."""
+    g = p.add_argument_group("progress")
+    m = g.add_mutually_exclusive_group()
+    m.add_argument("--progress", dest="progress", action="store_const", const=True,
+                   default=None, help="show stages and progress bars on stderr even when it "
+                   "is not a terminal")
+    m.add_argument("-q", "--quiet", dest="progress", action="store_const", const=False,
+                   help="no progress on stderr (warnings and errors are still shown)")
+
+
+def _progress(args: argparse.Namespace):
+    """The progress reporter the options ask for (stderr only, never stdout)."""
+    from tfhrv.core.progress import SILENT, TextProgress
+
+    want = getattr(args, "progress", None)
+    if want is None:
+        try:
+            want = sys.stderr.isatty()
+        except (AttributeError, ValueError):
+            want = False
+    return TextProgress(sys.stderr) if want else SILENT
+
+
+def _add_dpi_option(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--dpi", type=float, default=110.0,
+                   help="resolution of PNG figures, dots per inch (110: 1100 px for a 10-inch "
+                   "figure; 200-300 for print)")
+
+
 def _read(args: argparse.Namespace):
     from tfhrv.io.readers import read_recording
 
@@ -87,6 +149,7 @@ def _read(args: argparse.Namespace):
 def _cmd_inspect(args: argparse.Namespace) -> int:
     from tfhrv.analysis.inspection import format_inspection, inspect_record, inspection_dict
     from tfhrv.analysis.policy import explain_table
+    from tfhrv.core.jsonsafe import dumps_strict
     from tfhrv.signal.clean import clean
 
     if args.explain:
@@ -96,9 +159,14 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
         print()
     if args.recording is None:
         raise ValueError("inspect needs a recording file (or --explain alone)")
-    ins = inspect_record(clean(_read(args)), options=_scan_options(args))
+    progress = _progress(args)
+    progress.stage(f"read {args.recording}")
+    rec = _read(args)
+    progress.stage("clean")
+    cleaned = clean(rec)
+    ins = inspect_record(cleaned, options=_scan_options(args), progress=progress)
     if args.json:
-        print(json.dumps(inspection_dict(ins), indent=2, default=float))
+        print(dumps_strict(inspection_dict(ins), indent=2))
     else:
         print(format_inspection(ins))
     return 0
@@ -134,15 +202,44 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
         raise ValueError(f"{path}: the output folder does not exist")
 
 
-def _cmd_scan(args: argparse.Namespace) -> int:
+def _scan_recording(rec, options, progress, *, what: str = ""):
+    """clean -> scan, with stages; a record too short for any window says so, naming it."""
     from tfhrv.dataset.build import scan
-    from tfhrv.dataset.netcdf import write_tree
     from tfhrv.signal.clean import clean
+
+    progress.stage("clean")
+    cleaned = clean(rec)
+    _check_long_enough(cleaned, options, what=what)
+    return scan(cleaned, options=options, progress=progress)
+
+
+def _check_long_enough(cleaned, options, *, what: str) -> None:
+    """Refuse, in the user's terms, a record shorter than one short window."""
+    from tfhrv.core.errors import InsufficientDataError
+
+    rec = cleaned.recording
+    q = cleaned.quality
+    need = options.short.window_s
+    if q.recorded_s < need or cleaned.nn_ms.size < 2:
+        raise InsufficientDataError(
+            f"{rec.source or rec.record_id}: the record is too short for "
+            f"{what or 'the time-resolved analysis'}: {q.recorded_s / 60:.1f} min recorded, "
+            f"{cleaned.nn_ms.size} NN intervals kept; a scan needs at least one "
+            f"{need / 60:g}-min window (--short-window), and the whole-record long-range "
+            "exponents and the day/night analysis need hours (24 h for the classical "
+            "1e-4 to 1e-2 Hz slope)")
+
+
+def _cmd_scan(args: argparse.Namespace) -> int:
+    from tfhrv.dataset.netcdf import write_tree
 
     _check_output(args.output, (".nc",))
     options = _scan_options(args)
+    progress = _progress(args)
+    progress.stage(f"read {args.recording}")
     rec = _read(args)
-    tree = scan(clean(rec), options=options)
+    tree = _scan_recording(rec, options, progress, what="a scan")
+    progress.stage(f"write {args.output}")
     write_tree(tree, args.output)
     rec_ds = tree["/record"]
     print(f"wrote {args.output}: {tree['/short'].sizes['time']} short and "
@@ -151,52 +248,91 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     return 0
 
 
-def _cmd_rhythm(args: argparse.Namespace) -> int:
+def _cmd_circadian(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     import xarray as xr
 
-    from tfhrv.circadian.days import (
-        RhythmOptions,
-        format_rhythm,
-        read_sleep_log,
-        rhythm_dataset,
-        rhythm_table,
-    )
+    from tfhrv.circadian.days import circadian_dataset, circadian_table, format_circadian
     from tfhrv.dataset.netcdf import atomic_write, open_tree, write_tree
 
     path = Path(args.scan_file)
     if not path.is_file():
         raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    progress = _progress(args)
+    progress.stage(f"read {path}")
     tree = open_tree(path)
-    opt = RhythmOptions(night_hours=tuple(args.night), day_hours=tuple(args.day),
-                        period=args.period, rest_hours=args.rest_hours)
-    log = (read_sleep_log(args.sleep_log, tree.attrs.get("record_id", ""))
-           if args.sleep_log else None)
-    table = rhythm_table(tree, options=opt, sleep_log=log)
-    csv_path = Path(args.csv) if args.csv else path.with_suffix(".rhythm.csv")
+    opt = _circadian_options(args)
+    log = _sleep_log(args, tree.attrs.get("record_id", ""))
+    progress.stage("day/night contrasts (block bootstrap) and cosinor")
+    try:
+        table = circadian_table(tree, options=opt, sleep_log=log)
+    except InsufficientDataError as exc:
+        raise InsufficientDataError(f"{path}: the record is too short for the circadian "
+                                    f"analysis: {exc}") from None
+    csv_path = Path(args.csv) if args.csv else path.with_suffix(".circadian.csv")
+    progress.stage(f"write {csv_path} and the /circadian group of {path}")
     atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
-    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt, tree=tree, sleep_log=log))
-    tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv rhythm"
+    tree["/circadian"] = xr.DataTree(circadian_dataset(table, opt, tree=tree, sleep_log=log))
+    tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv circadian"
     write_tree(tree, path)
-    print(format_rhythm(table))
-    print(f"\nwrote {csv_path} and the /rhythm group of {path}")
+    print(format_circadian(table))
+    print(f"\nwrote {csv_path} and the /circadian group of {path}")
     return 0
 
 
-def _pipeline(rec, options, rhythm_options=None):
-    """read -> clean -> scan -> rhythm: the tree with its /rhythm group, and the table."""
+def _cmd_rhythm(args: argparse.Namespace) -> int:
+    """The verb's name before tfhrv 0.2: a hidden alias of ``circadian`` for one release."""
+    import warnings
+
+    from tfhrv.core.errors import DeprecatedNameWarning
+
+    warnings.warn("'tfhrv rhythm' is now 'tfhrv circadian' (the old name reads as cardiac "
+                  "rhythm); the alias will be removed in the next release",
+                  DeprecatedNameWarning, stacklevel=1)
+    return _cmd_circadian(args)
+
+
+def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None):
+    """clean -> scan -> circadian: the tree with its /circadian group, and the table."""
     import xarray as xr
 
-    from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
-    from tfhrv.dataset.build import scan
-    from tfhrv.signal.clean import clean
+    from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
+    from tfhrv.core.errors import InsufficientDataError
 
-    tree = scan(clean(rec), options=options)
-    ropt = rhythm_options or RhythmOptions()
-    table = rhythm_table(tree, options=ropt)
-    tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt, tree=tree))
+    tree = _scan_recording(rec, options, progress, what="a report")
+    copt = circadian_options or CircadianOptions()
+    progress.stage("day/night contrasts (block bootstrap) and cosinor")
+    try:
+        table = circadian_table(tree, options=copt, sleep_log=sleep_log)
+    except InsufficientDataError as exc:  # a short record: the report says why, without it
+        tree.attrs["circadian_skipped"] = f"record too short for the circadian analysis: {exc}"
+        progress.note(f"no circadian analysis for {rec.source or rec.record_id}: {exc}")
+        return tree, None
+    tree["/circadian"] = xr.DataTree(circadian_dataset(table, copt, tree=tree,
+                                                       sleep_log=sleep_log))
     return tree, table
+
+
+def _cmd_export(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from tfhrv.dataset.netcdf import open_tree
+    from tfhrv.dataset.table import TABLE_SUFFIXES, write_window_table
+
+    path = Path(args.scan_file)
+    if not path.is_file():
+        raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    _check_output(args.output, TABLE_SUFFIXES)
+    progress = _progress(args)
+    progress.stage(f"read {path}")
+    tree = open_tree(path)
+    tiers = ("short", "long") if args.tier == "both" else (args.tier,)
+    progress.stage(f"write {args.output}")
+    table, dictionary = write_window_table(tree, args.output, tiers=tiers)
+    print(f"wrote {table} (one row per window, {'/'.join(tiers)} tier) and its column "
+          f"dictionary {dictionary}")
+    return 0
 
 
 def _cmd_figures(args: argparse.Namespace) -> int:
@@ -211,7 +347,12 @@ def _cmd_figures(args: argparse.Namespace) -> int:
     out = Path(args.directory)
     if out.exists() and not out.is_dir():
         raise ValueError(f"{out}: exists and is not a folder")
-    written = save_all(open_tree(path), out, formats=tuple(args.formats))
+    progress = _progress(args)
+    progress.stage(f"read {path}")
+    tree = open_tree(path)
+    written = save_all(tree, out, formats=tuple(args.formats), dpi=args.dpi,
+                       progress=progress,
+                       **({"alpha_range": tuple(args.alpha_range)} if args.alpha_range else {}))
     print(f"wrote {len(written)} files to {out}")
     return 0
 
@@ -221,10 +362,16 @@ def _cmd_report(args: argparse.Namespace) -> int:
     from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
-    tree, table = _pipeline(_read(args), _scan_options(args))
-    path = write_report(tree, args.output, rhythm_table=table)
+    progress = _progress(args)
+    progress.stage(f"read {args.recording}")
+    rec = _read(args)
+    tree, table = _pipeline(rec, _scan_options(args), progress, _circadian_options(args),
+                            _sleep_log(args, rec.record_id))
+    path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
+                        progress=progress, started=_STARTED)
     if args.scan_output:
         _check_output(args.scan_output, (".nc",))
+        progress.stage(f"write {args.scan_output}")
         write_tree(tree, args.scan_output)
     print(f"wrote {path}: FFT-slope verdict {tree['/record'].attrs['verdict']}")
     return 0
@@ -247,11 +394,19 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     out.mkdir(parents=True, exist_ok=True)
     print(f"demo recording: {demo.name} (invented 48-h day worker of a fictional shift-work "
           "study)")
-    tree, table = _pipeline(read_recording(demo), ScanOptions())
+    progress = _progress(args)
+    progress.stage(f"read {demo.name}")
+    rec = read_recording(demo)
+    tree, table = _pipeline(rec, ScanOptions(), progress, _circadian_options(args),
+                            _sleep_log(args, rec.record_id))
+    progress.stage(f"write {out / 'sw01_day_worker.nc'}")
     write_tree(tree, out / "sw01_day_worker.nc")
-    atomic_csv = out / "sw01_day_worker.rhythm.csv"
-    atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
-    report = write_report(tree, out / "sw01_day_worker_report.html", rhythm_table=table)
+    atomic_csv = out / "sw01_day_worker.circadian.csv"
+    if table is not None:
+        atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False,
+                                                          float_format="%.6g"))
+    report = write_report(tree, out / "sw01_day_worker_report.html", circadian_table=table,
+                          dpi=args.dpi, progress=progress, started=_STARTED)
     print(f"verdict: {tree['/record'].attrs['verdict']}")
     print(f"wrote {out / 'sw01_day_worker.nc'} and {atomic_csv}")
     print(f"report: {report.resolve()}")
@@ -259,10 +414,21 @@ def _cmd_demo(args: argparse.Namespace) -> int:
 
 
 def _cmd_cohort(args: argparse.Namespace) -> int:
-    from tfhrv.cohort.run import CohortOptions, format_summary, run_cohort
+    from tfhrv.cohort.run import (
+        CohortOptions,
+        format_summary,
+        read_manifest,
+        run_cohort,
+        with_sleep_log,
+    )
 
-    res = run_cohort(args.manifest, args.output, workers=args.workers,
-                     scheduler=args.scheduler, options=CohortOptions(report=args.report))
+    entries = read_manifest(args.manifest)
+    if args.sleep_log:
+        entries = with_sleep_log(entries, args.sleep_log)
+    res = run_cohort(entries, args.output, workers=args.workers, scheduler=args.scheduler,
+                     options=CohortOptions(report=args.report,
+                                           circadian=_circadian_options(args)),
+                     progress=_progress(args))
     print(format_summary(res))
     return 1 if res.count("failed") else 0
 
@@ -324,55 +490,73 @@ def build_parser() -> argparse.ArgumentParser:
     _add_reader_options(p)
     p.set_defaults(func=_cmd_scan)
 
-    p = sub.add_parser("rhythm", help="day/night contrasts and 24-h cosinor of a scan",
-                       description="Reads a scan file, contrasts night and day (clock windows, "
-                       "a sleep log, or the inferred rest period) with block-bootstrap "
-                       "intervals, fits single and 24 + 12 h cosinors, prints a table, writes "
-                       "it as CSV and adds a /rhythm group to the scan file. " + CAUTION)
+    circadian_text = ("Reads a scan file, contrasts night and day (clock windows, a sleep "
+                      "log, or the inferred rest period) with block-bootstrap intervals, fits "
+                      "single and 24 + 12 h cosinors, prints a table, writes it as CSV and adds "
+                      "a /circadian group to the scan file. " + CAUTION)
+    for verb in ("circadian", "rhythm"):  # "rhythm": hidden alias (old name) for one release
+        p = (sub.add_parser(verb, help="day/night contrasts and 24-h cosinor of a scan",
+                            description=circadian_text) if verb == "circadian"
+             else sub.add_parser(verb, description="Deprecated name of 'tfhrv circadian'. "
+                                 + circadian_text))
+        p.add_argument("scan_file", help="file written by tfhrv scan (.nc)")
+        _add_circadian_options(p)
+        p.add_argument("--csv", help="table output (default: SCAN.circadian.csv)")
+        p.set_defaults(func=_cmd_circadian if verb == "circadian" else _cmd_rhythm)
+
+    p = sub.add_parser("export", help="per-window values of a scan as CSV or Parquet",
+                       description="Writes one row per window of a scan file (time, clock "
+                       "hour, quality, stationarity category, primary estimator, every "
+                       "exponent with its calibrated interval, SE and fitted slope) as CSV or "
+                       "Parquet for spreadsheets and R, with a sidecar TABLE.dictionary.csv "
+                       "giving each column's unit and meaning. " + CAUTION)
     p.add_argument("scan_file", help="file written by tfhrv scan (.nc)")
-    p.add_argument("--night", type=float, nargs=2, default=(0.0, 6.0), metavar=("FROM", "TO"),
-                   help="night clock window in hours (0 6; common practice)")
-    p.add_argument("--day", type=float, nargs=2, default=(10.0, 20.0), metavar=("FROM", "TO"),
-                   help="day clock window in hours (10 20; common practice)")
-    p.add_argument("--period", choices=("auto", "clock", "inferred"), default="auto",
-                   help="where day and night come from (auto: clock if known, else inferred)")
-    p.add_argument("--rest-hours", type=float, default=6.0,
-                   help="length of the inferred rest period, h (6)")
-    p.add_argument("--sleep-log", help="CSV with record,rest_start,rest_end (takes precedence)")
-    p.add_argument("--csv", help="table output (default: SCAN.rhythm.csv)")
-    p.set_defaults(func=_cmd_rhythm)
+    p.add_argument("-o", "--output", required=True, help="table file (.csv or .parquet)")
+    p.add_argument("--tier", choices=("short", "long", "both"), default="both",
+                   help="which windows (both: one table with a tier column)")
+    p.set_defaults(func=_cmd_export)
 
     p = sub.add_parser("figures", help="all figures of a scan file as PNG/SVG",
                        description="Renders the overview, spectrum, DFA, wavelet log-scale "
-                       "diagram, time x scale maps, stationarity timeline and rhythm figures of "
+                       "diagram, time x scale maps, stationarity timeline and circadian figures of "
                        "a scan file. " + CAUTION)
     p.add_argument("scan_file", help="file written by tfhrv scan (.nc)")
     p.add_argument("-d", "--directory", required=True, help="output folder")
     p.add_argument("--formats", nargs="+", choices=("png", "svg"), default=["png", "svg"],
                    help="file formats (png svg)")
+    _add_dpi_option(p)
+    p.add_argument("--alpha-range", type=float, nargs=2, metavar=("LOW", "HIGH"),
+                   help="fixed colour range of the local-exponent maps (e.g. 0.5 1.5, to "
+                   "compare records); default: fitted to the data, centred at alpha = 1")
     p.set_defaults(func=_cmd_figures)
 
     p = sub.add_parser("report", help="the whole pipeline into one self-contained HTML file",
-                       description="Reads, cleans, scans and analyses the day/night rhythm of a "
+                       description="Reads, cleans, scans and analyses day and night (circadian) "
+                       "of a "
                        "recording and writes one HTML report with everything embedded. " + CAUTION)
     p.add_argument("recording", help="beat-interval file")
     p.add_argument("-o", "--output", required=True, help="report file (.html)")
     p.add_argument("--scan-output", help="also keep the scan file (.nc)")
+    _add_dpi_option(p)
     _add_scan_options(p)
+    _add_circadian_options(p)
     _add_reader_options(p)
     p.set_defaults(func=_cmd_report)
 
     p = sub.add_parser("demo", help="the report on the shipped demo recording",
                        description="Runs the whole pipeline on the shipped invented demo "
                        "recording (a day worker of a fictional shift-work study), writes the scan "
-                       "file, the rhythm table and the HTML report, and prints the report's "
+                       "file, the circadian table and the HTML report, and prints the report's "
                        "path. " + CAUTION)
     p.add_argument("-o", "--output-dir", default="demo_output",
                    help="output folder (demo_output)")
+    _add_dpi_option(p)
+    _add_circadian_options(p)
     p.set_defaults(func=_cmd_demo)
 
     p = sub.add_parser("cohort", help="many recordings on dask; study table; group comparison",
-                       description="Runs scan and rhythm on every recording of a manifest (CSV "
+                       description="Runs scan and the circadian analysis on every recording of a "
+                       "manifest (CSV "
                        "with path, record, group, optional start or start_time_of_day, sleep_log, "
                        "extra columns; or a folder or quoted glob of recordings) on a dask "
                        "cluster, skips records already done, and writes OUTDIR/records/<record>.nc"
@@ -384,6 +568,7 @@ def build_parser() -> argparse.ArgumentParser:
                    "0: in this process, without dask)")
     p.add_argument("--scheduler", help="address of a running dask scheduler (tcp://host:port)")
     p.add_argument("--report", action="store_true", help="also write reports/<record>.html")
+    _add_circadian_options(p)
     p.set_defaults(func=_cmd_cohort)
 
     p = sub.add_parser("synth", help="synthetic recording with known exponents",
@@ -398,6 +583,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, default=0, help="random seed (0)")
     p.add_argument("--record-id", help="record identifier")
     p.set_defaults(func=_cmd_synth)
+    for p in sub.choices.values():
+        _add_feedback_options(p)
     return parser
 
 
@@ -409,17 +596,30 @@ def main(argv: Sequence[str] | None = None) -> int:
         with warnings.catch_warnings():
             warnings.simplefilter("default", TfhrvWarning)
             warnings.showwarning = _show_warning
-            return int(args.func(args) or 0)
+            status = int(args.func(args) or 0)
+            sys.stdout.flush()  # a closed pipe shows here, inside the handler below
+            return status
+    except BrokenPipeError:  # output piped into head & co.: stop quietly
+        _silence_stdout()
+        return 0
     except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError) as exc:
         if args.debug:
             raise
         print(f"tfhrv: error: {exc}", file=sys.stderr)
         return 2
-    except BrokenPipeError:  # output piped into head & co.
-        return 0
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("tfhrv: interrupted", file=sys.stderr)
         return 130
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device, so that the interpreter's final flush of a closed
+    pipe does not print a second error (Python docs, 'Note on SIGPIPE')."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):  # stdout without a file descriptor
+        pass
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:

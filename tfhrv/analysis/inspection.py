@@ -13,6 +13,7 @@ import numpy as np
 
 from tfhrv.analysis.pipeline import RecordAnalysis, ScanOptions, analyse_record
 from tfhrv.analysis.policy import RecordAssessment
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.signal.clean import CleanResult
 
 __all__ = ["Inspection", "format_inspection", "inspect_record", "inspection_dict"]
@@ -46,11 +47,15 @@ class Inspection:
                 for name, t in (("short", self.analysis.short), ("long", self.analysis.long))}
 
 
-def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None
-                   ) -> Inspection:
+def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
+                   progress: Progress = SILENT) -> Inspection:
     """Run the stationarity battery on every window of both tiers and judge the record
-    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``)."""
-    return Inspection(analyse_record(cleaned, options=options, detail="battery"))
+    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``).
+
+    ``progress`` (default: silent) is told each window and the whole-record stage.
+    """
+    return Inspection(analyse_record(cleaned, options=options, detail="battery",
+                                     progress=progress))
 
 
 def _fit_dict(fit) -> dict | None:
@@ -61,12 +66,47 @@ def _fit_dict(fit) -> dict | None:
             "fit_range": list(fit.fit_range), "fit_units": fit.fit_units}
 
 
+def _missing_reason(path: str, ins: Inspection) -> str:
+    """Why a value of :func:`inspection_dict` is null."""
+    q = ins.cleaned.quality
+    if path.startswith("verdict_detail.checks."):
+        return "could not be computed on this record (see verdict_detail.cautions)"
+    if path.startswith("quality."):
+        return f"not computable from {q.n_kept} kept NN intervals"
+    if path.startswith("exponents.") and ".ci[" in path:
+        return ("open interval end: the calibration cannot bound the exponent on this side "
+                "at this length")
+    if path.startswith("exponents."):
+        return (f"not estimable on this record ({q.n_kept} NN intervals, "
+                f"{q.recorded_s / 3600:.2g} h recorded): too short for the fit range, or "
+                "too few scales in it")
+    return "not a finite number"
+
+
 def inspection_dict(ins: Inspection, /) -> dict:
-    """JSON-friendly summary with a top-level ``verdict`` field."""
+    """Summary for JSON with a top-level ``verdict`` field; strict JSON (RFC 8259).
+
+    Values that are not finite numbers are None (JSON ``null``), as is the exponent that
+    could not be estimated; ``missing`` maps the path of each such value (dotted keys) to
+    the reason.
+    """
+    from tfhrv.core.jsonsafe import to_strict
+
     cleaned = ins.cleaned
     rec = cleaned.recording
     start = rec.start.isoformat() if rec.start is not None else None
     v = ins.assessment.verdict
+    nulls: dict[str, str] = {}
+    out = to_strict(_inspection_fields(ins, rec, start, v), reasons=nulls)
+    missing = {k: _missing_reason(k, ins) for k in nulls}
+    missing.update({f"exponents.{k}": _missing_reason(f"exponents.{k}", ins)
+                    for k, f in ins.assessment.fits.items() if f is None})
+    out["missing"] = dict(sorted(missing.items()))
+    return out
+
+
+def _inspection_fields(ins: Inspection, rec, start, v) -> dict:
+    cleaned = ins.cleaned
     return {
         "record": rec.record_id,
         "source": rec.source,
@@ -94,9 +134,22 @@ def _hms(seconds: float) -> str:
     return f"{h}h{m:02d}m" if h else f"{m}m{sec:02d}s"
 
 
+#: characters of the hourly coverage bar: character k stands for a coverage in
+#: [k/8, (k+1)/8), the last one also for full hours
+_TICKS = " .:-=+*#"
+
+
 def _hour_bar(cov: np.ndarray) -> str:
-    ticks = " .:-=+*#"
-    return "".join("#" if c >= 1 else ticks[min(7, int(np.floor(c * 8)))] for c in cov)
+    return "".join(_TICKS[-1] if c >= 1 else _TICKS[min(7, max(0, int(np.floor(c * 8))))]
+                   for c in np.nan_to_num(np.asarray(cov, float)))
+
+
+def _hour_legend() -> str:
+    """What every character of :func:`_hour_bar` means, in percent coverage of the hour."""
+    parts = [f"{c if c != ' ' else 'blank'} {'>=' if k else '<'} "
+             f"{100 * max(k, 1) / 8:.1f}".rstrip("0").rstrip(".")
+             for k, c in reversed(list(enumerate(_TICKS)))]
+    return ", ".join(parts) + " % of the hour covered"
 
 
 def _span(s: float) -> str:
@@ -132,7 +185,8 @@ def format_inspection(ins: Inspection, /) -> str:
         f"longest {_hms(q.longest_gap_s)}",
         f"NN            mean {q.nn_mean_ms:.0f} ms, SDNN {q.nn_sd_ms:.0f} ms, "
         f"RMSSD {q.rmssd_ms:.0f} ms",
-        f"coverage      per hour |{_hour_bar(q.hourly_coverage)}|  (# full, blank empty)",
+        f"coverage      per hour |{_hour_bar(q.hourly_coverage)}|",
+        f"              ({_hour_legend()})",
     ]
     for name, t in ins.tiers.items():
         cats = Counter({k: v for k, v in t["categories"].items() if v})
@@ -146,6 +200,10 @@ def format_inspection(ins: Inspection, /) -> str:
     v = a.verdict
     lines.append(f"FFT slope     {v.verdict.upper()}   (classical 1e-4 to 1e-2 Hz whole-record "
                  f"slope; recommended estimator: {v.recommended})")
+    lines.append(" " * 14 + "(the recommendation is for the whole-record long-range slope; "
+                 "each window's primary")
+    lines.append(" " * 14 + "estimator is chosen separately, by its stationarity category and "
+                 "narrowest interval: tfhrv scan)")
     for r in v.reasons:
         lines.append(f"  reason      {r}")
     for c in v.cautions:

@@ -44,6 +44,7 @@ from tfhrv.analysis.windows import (
     tier_windows,
 )
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.core.validation import check_choice
 from tfhrv.estimators.dfa import Fluctuation, dfa_fluctuation, local_slopes
 from tfhrv.estimators.loglog import ScalingFit, convert_exponent
@@ -294,11 +295,13 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
         v["wavelet_energy"][w, :m] = diag.energy[:m]
 
 
-def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, full: bool
-                  ) -> TierAnalysis:
+def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, full: bool,
+                  progress: Progress) -> TierAnalysis:
     rec = cleaned.recording
     windows = tier_windows(cleaned, tier)
-    battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed)
+    battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed,
+                                progress=progress,
+                                label=f"stationarity battery, {tier.scale} windows")
     keep = cleaned.keep
     mean_rr = float(np.mean(rec.rr_ms[keep])) / 1000.0 if keep.any() else 0.8
     fs = opt.short_psd_fs_hz if tier.scale == "short" else opt.long_psd_fs_hz
@@ -309,7 +312,9 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, ful
         # Task Force 1996: a band needs about 10 periods of its lower limit; ULF needs 24 h.
         band_ok = np.array([tier.window_s >= 10.0 / lo if lo > 0 else False
                             for lo, _ in TASK_FORCE_BANDS.values()])
-        for w, (win, st) in enumerate(zip(windows, battery, strict=True)):
+        rows = progress.track(zip(windows, battery, strict=True), total=len(windows),
+                              label=f"fits, {tier.scale} windows")
+        for w, (win, st) in enumerate(rows):
             _window_values(values, w, win, st, tier, opt, grids, band_ok)
         for arr in values.values():
             arr.flags.writeable = False
@@ -319,7 +324,8 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, ful
 
 
 def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
-                   detail: Literal["battery", "full"] = "full") -> RecordAnalysis:
+                   detail: Literal["battery", "full"] = "full",
+                   progress: Progress = SILENT) -> RecordAnalysis:
     """Analyse one cleaned recording: windows, battery, fits, whole-record verdict.
 
     Parameters
@@ -333,6 +339,8 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
         whole-record assessment (what ``tfhrv inspect`` shows); ``"full"`` adds the
         per-window fits, spectra, fluctuation functions and wavelet energies and the
         whole-record curves (what ``tfhrv scan`` writes).
+    progress : tfhrv.core.progress.Progress, optional
+        Told each window and stage (default: silent).
 
     Returns
     -------
@@ -341,8 +349,9 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
     check_choice(detail, "detail", ("battery", "full"))
     opt = options or ScanOptions()
     full = detail == "full"
-    short = _analyse_tier(cleaned, opt.short, opt, full=full)
-    long = _analyse_tier(cleaned, opt.long, opt, full=full)
+    short = _analyse_tier(cleaned, opt.short, opt, full=full, progress=progress)
+    long = _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress)
+    progress.stage("whole-record fits and FFT-slope verdict")
     assessment = assess_record(cleaned, long_categories=long.categories,
                                band_hz=opt.record_band_hz, order=opt.dfa_order,
                                vanishing_moments=opt.vanishing_moments,

@@ -243,7 +243,10 @@ def fitness_verdict(
     Every check that fails adds a reason (``unfit``) or a caution
     (``fit-with-cautions``); NaN inputs (a quantity that could not be computed) add a
     caution saying so.  The recommended estimator is ``spectral`` when fit, otherwise the
-    wavelet estimator (trend-robust) or DFA when the record is a motion (beta > 1.5).
+    wavelet estimator (trend-robust) or DFA when the record is a motion (beta > 1.5), and
+    ``none`` when not even the wavelet exponent could be estimated (a record of minutes).
+    The recommendation is for the whole-record long-range slope; each window's primary
+    estimator is chosen separately (:func:`choose_estimator`), so the two can differ.
 
     Examples
     --------
@@ -270,12 +273,17 @@ def fitness_verdict(
         elif is_caution:
             cautions.append(caution_msg)
 
+    need_h = th.min_cycles / band_hz[0] / 3600.0
+    length = (f"{duration_s / 3600:.1f} h" if duration_s >= 3600
+              else f"{duration_s / 60:.1f} min")
     if cycles < th.caution_cycles:
-        reasons.append(f"duration: the record spans {cycles:.1f} periods of the lowest fitted "
-                       f"frequency {band_hz[0]:g} Hz (need >= {th.min_cycles:g})")
+        reasons.append(f"duration: the record ({length}) spans {cycles:.1f} periods of "
+                       f"the lowest fitted frequency {band_hz[0]:g} Hz (need >= "
+                       f"{th.min_cycles:g}, i.e. >= {need_h:.1f} h)")
     elif cycles < th.min_cycles:
-        cautions.append(f"duration: only {cycles:.1f} periods of {band_hz[0]:g} Hz "
-                        f"(>= {th.min_cycles:g} recommended)")
+        cautions.append(f"duration: only {cycles:.1f} periods of {band_hz[0]:g} Hz in "
+                        f"{length} (>= {th.min_cycles:g} recommended, i.e. >= "
+                        f"{need_h:.1f} h)")
     grade(coverage, th.min_coverage, th.caution_coverage,
           f"coverage: {100 * coverage:.0f} % analysable (< {100 * th.min_coverage:.0f} %)",
           f"coverage: {100 * coverage:.0f} % analysable (< {100 * th.caution_coverage:.0f} %)",
@@ -317,7 +325,9 @@ def fitness_verdict(
     verdict = "unfit" if reasons else "fit-with-cautions" if cautions else "fit"
     if verdict == "fit":
         recommended = "spectral"
-    elif cls == "fBm" and np.isfinite(beta_wavelet) and beta_wavelet > 1.5:
+    elif not np.isfinite(beta_wavelet):
+        recommended = "none"  # no long-range exponent could be estimated on this record
+    elif cls == "fBm" and beta_wavelet > 1.5:
         recommended = "dfa"
     else:
         recommended = "wavelet"

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.signal.clean import CleanResult
 from tfhrv.stationarity.battery import CATEGORIES, StationarityResult, stationarity_battery
 
@@ -117,15 +118,18 @@ def tier_windows(cleaned: CleanResult, tier: TierSpec, /) -> list[Window]:
     return out
 
 
-def tier_stationarity(windows: list[Window], /, *, n_surrogates: int = 99, seed: int = 0
+def tier_stationarity(windows: list[Window], /, *, n_surrogates: int = 99, seed: int = 0,
+                      progress: Progress = SILENT, label: str = "stationarity battery"
                       ) -> list[StationarityResult | None]:
     """The stationarity battery on every analysable window (None for the others).
 
     Window ``w`` uses the seed ``seed + w`` for its surrogates, so results do not depend
-    on which other windows are analysed.
+    on which other windows are analysed.  ``progress`` (default: silent) is told each
+    window, under ``label``.
     """
     return [stationarity_battery(w.nn_ms, n_surrogates=n_surrogates, rng=seed + i)
-            if w.analysable else None for i, w in enumerate(windows)]
+            if w.analysable else None
+            for i, w in enumerate(progress.track(windows, total=len(windows), label=label))]
 
 
 def category_codes(results: list[StationarityResult | None], /) -> np.ndarray:

@@ -1,4 +1,4 @@
-"""Numerical core of the rhythm analysis: cosinor, day/night contrast, rest-period search.
+"""Numerical core of the circadian analysis: cosinor, day/night contrast, rest-period search.
 
 Pure functions on numpy arrays (hours and values); the xarray layer in ``tfhrv.circadian.days``
 applies them to the per-window variables of a DataTree.
@@ -281,7 +281,7 @@ def cosinor(
     (x(t_max) - x(t_min)) / 2 (envelope theorem) and peak-time gradient
     -x'(t_max) / f''(t_max) (implicit function theorem), x(t) being the design row.
     Being first-order, the composite peak-time interval undercovers at low signal-to-noise
-    (1000 seeds, scripts/rhythm_core_coverage.py: 88 % for a nominal 95 % at
+    (1000 seeds, scripts/circadian_core_coverage.py: 88 % for a nominal 95 % at
     A/sigma = 5/3, N = 60; 93 % at N = 240; 95 % at A/sigma = 5, N = 60).
 
     ``ci_method="ellipse"``: the joint 100(1 - alpha) % confidence ellipse of (b_k, g_k),

@@ -1,7 +1,7 @@
 """Day/night contrasts and 24-h cosinor of every time-resolved variable of a scan.
 
 Works on the DataTree written by :func:`tfhrv.dataset.build.scan` and returns a table (one row
-per variable and day) plus the ``/rhythm`` group.
+per variable and day) plus the ``/circadian`` group.
 
 Day and night come, in order of precedence, from a sleep log, from clock windows
 (defaults night 00:00-06:00, day 10:00-20:00: common practice), or, when the clock start
@@ -24,7 +24,13 @@ import xarray as xr
 from tfhrv.circadian.core import cosinor, infer_rest_periods, night_day_contrast
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError
 
-__all__ = ["RhythmOptions", "format_rhythm", "read_sleep_log", "rhythm_dataset", "rhythm_table"]
+__all__ = [
+    "CircadianOptions",
+    "circadian_dataset",
+    "circadian_table",
+    "format_circadian",
+    "read_sleep_log",
+]
 
 #: (tier, variable) pairs analysed, in table order.
 VARIABLES: tuple[tuple[str, str], ...] = (
@@ -42,8 +48,8 @@ VARIABLES: tuple[tuple[str, str], ...] = (
 
 
 @dataclass(frozen=True, slots=True)
-class RhythmOptions:
-    """Options of the rhythm analysis.
+class CircadianOptions:
+    """Options of the circadian analysis.
 
     ``night_hours``/``day_hours`` are clock windows (start, end) in hours, wrapping past
     midnight when start > end; ``period`` = "auto" uses the clock when the start is known
@@ -125,7 +131,7 @@ def _series(tree: xr.DataTree, tier: str, var: str) -> np.ndarray:
     return ds[var].values
 
 
-def _periods(tree: xr.DataTree, tier: str, opt: RhythmOptions, sleep_log):
+def _periods(tree: xr.DataTree, tier: str, opt: CircadianOptions, sleep_log):
     """night and day masks for a tier, the day index of each window, and the source."""
     root = tree.attrs
     ds = tree[f"/{tier}"].to_dataset()
@@ -157,6 +163,12 @@ def _periods(tree: xr.DataTree, tier: str, opt: RhythmOptions, sleep_log):
     else:
         nn = tree["/short"]["nn_mean_ms"].values
         t_short = tree["/short"]["elapsed"].values / 3600.0
+        span = float(np.ptp(t_short)) if t_short.size else 0.0
+        if span < opt.rest_hours:
+            raise InsufficientDataError(
+                f"the inferred rest period needs at least {opt.rest_hours:g} h of 5-min "
+                f"windows ({span:.1f} h here); give the clock start (--start HH:MM) for clock "
+                "windows, or a sleep log")
         start_h = float(tree["/short"]["clock_hour"].values[0] - t_short[0]) % 24 if (
             "clock_hour" in tree["/short"].coords) else 0.0
         rests = infer_rest_periods(t_short, nn, length_hours=opt.rest_hours,
@@ -190,7 +202,7 @@ def _cosinor_time(tree: xr.DataTree, tier: str) -> tuple[np.ndarray, str]:
     return elapsed_h, "hours from start"
 
 
-def rhythm_table(tree: xr.DataTree, /, *, options: RhythmOptions | None = None,
+def circadian_table(tree: xr.DataTree, /, *, options: CircadianOptions | None = None,
                  sleep_log: list | None = None) -> pd.DataFrame:
     """Day/night contrast and cosinor rows for every variable, pooled and per day.
 
@@ -206,7 +218,7 @@ def rhythm_table(tree: xr.DataTree, /, *, options: RhythmOptions | None = None,
         ``acrophase_h2``/``amplitude2``/``cosinor2_p`` of the 24 + 12 h model, and
         ``acrophase_reference`` ("clock" or "hours from start").
     """
-    opt = options or RhythmOptions()
+    opt = options or CircadianOptions()
     rows = []
     for tier, var in VARIABLES:
         ds = tree[f"/{tier}"].to_dataset()
@@ -270,10 +282,10 @@ def _cosinor_columns(t: np.ndarray, y: np.ndarray, ref: str) -> dict:
     return out
 
 
-def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
+def circadian_dataset(table: pd.DataFrame, options: CircadianOptions, *,
                    tree: xr.DataTree | None = None,
                    sleep_log: list | None = None) -> xr.Dataset:
-    """The table as the ``/rhythm`` group (dimension ``row``) with units and long names.
+    """The table as the ``/circadian`` group (dimension ``row``) with units and long names.
 
     Given the scan ``tree`` (and the ``sleep_log`` the table was made with), the group also
     keeps the night/rest and day masks of the short windows (``short_night``,
@@ -305,11 +317,35 @@ def rhythm_dataset(table: pd.DataFrame, options: RhythmOptions, *,
     return ds
 
 
+#: unit of each variable of :data:`VARIABLES` (exponents are dimensionless)
+UNITS = {"nn_mean_ms": "ms", "nn_sd_ms": "ms", "lf_power": "ms²", "hf_power": "ms²"}
+
+
+def decimals(variable: str, /) -> int:
+    """Decimals a table shows for a variable: 0 for ms and ms², 2 for exponents."""
+    return 0 if variable in UNITS else 2
+
+
+def fixed(v: float, digits: int = 2, /) -> str:
+    """``v`` with ``digits`` decimals; 'n/a' when not finite; never '-0' or '-0.00'.
+
+    Examples
+    --------
+    >>> fixed(-0.001), fixed(-0.4, 0), fixed(float("nan")), fixed(-1.234)
+    ('0.00', '0', 'n/a', '-1.23')
+    """
+    v = float(v)
+    if not np.isfinite(v):
+        return "n/a"
+    text = f"{v:.{digits}f}"
+    return text[1:] if text.startswith("-") and float(text) == 0 else text
+
+
 def _fmt(v: float, digits: int = 2) -> str:
-    return "n/a" if not np.isfinite(v) else f"{v:.{digits}f}"
+    return fixed(v, digits)
 
 
-def _period_label(source: str, options: RhythmOptions) -> str:
+def _period_label(source: str, options: CircadianOptions) -> str:
     """How figures name the night/rest period of a ``_periods`` source."""
     if source == "clock":
         return (f"night {_clock(options.night_hours[0])}–{_clock(options.night_hours[1])} "
@@ -326,27 +362,38 @@ def _clock(h: float) -> str:
     return f"{m // 60:02d}:{m % 60:02d}"
 
 
-def format_rhythm(table: pd.DataFrame, /) -> str:
-    """Compact text table of the pooled rows (one line per variable)."""
+def format_circadian(table: pd.DataFrame, /) -> str:
+    """Compact text table of the pooled rows (one line per variable), with units."""
     pooled = table[table["day"] == "all"]
-    head = (f"{'variable':<19} {'day':>8} {'night':>8} {'night-day [95% CI]':>24} "
-            f"{'g':>6} {'MESOR':>8} {'amplitude [CI]':>20} {'acrophase [CI]':>21} {'p':>8}")
-    lines = [f"day/night from: {pooled['period_source'].iloc[0]}; acrophase as "
-             f"{pooled['acrophase_reference'].iloc[0]}", head, "-" * len(head)]
+    clock = str(pooled["acrophase_reference"].iloc[0]) == "clock" if len(pooled) else True
+    head = ["variable (tier)", "unit", "day", "night", "night-day [95% CI]", "g", "MESOR",
+            "amplitude [95% CI]", "acrophase [95% CI]" if clock else "acrophase h [95% CI]",
+            "p"]
+    rows = []
     for _, r in pooled.iterrows():
-        digits = 0 if r["variable"] in ("nn_mean_ms", "nn_sd_ms", "lf_power", "hf_power") else 2
-        name = f"{r['variable']} ({r['tier']})"
+        digits = decimals(r["variable"])
         diff = (f"{_fmt(r['difference'], digits)} [{_fmt(r['difference_low'], digits)}, "
                 f"{_fmt(r['difference_high'], digits)}]")
         amp = (f"{_fmt(r['amplitude'], digits)} [{_fmt(r['amplitude_low'], digits)}, "
                f"{_fmt(r['amplitude_high'], digits)}]")
-        clock = r["acrophase_reference"] == "clock"
         ph = (f"{_clock(r['acrophase_h'])} [{_clock(r['acrophase_low'])}-"
               f"{_clock(r['acrophase_high'])}]" if clock else
-              f"{_fmt(r['acrophase_h'], 1)} h [{_fmt(r['acrophase_low'], 1)}-"
+              f"{_fmt(r['acrophase_h'], 1)} [{_fmt(r['acrophase_low'], 1)}-"
               f"{_fmt(r['acrophase_high'], 1)}]")
         p = "n/a" if not np.isfinite(r["cosinor_p"]) else f"{r['cosinor_p']:.2g}"
-        lines.append(f"{name:<19} {_fmt(r['day_mean'], digits):>8} "
-                     f"{_fmt(r['night_mean'], digits):>8} {diff:>24} {_fmt(r['effect_size']):>6} "
-                     f"{_fmt(r['mesor'], digits):>8} {amp:>20} {ph:>21} {p:>8}")
-    return "\n".join(lines)
+        rows.append([f"{r['variable']} ({r['tier']})", UNITS.get(r["variable"], "1"),
+                     _fmt(r["day_mean"], digits), _fmt(r["night_mean"], digits), diff,
+                     _fmt(r["effect_size"]), _fmt(r["mesor"], digits), amp, ph, p])
+    widths = [max(len(x[i]) for x in [head, *rows]) for i in range(len(head))]
+
+    def line(cells: list[str]) -> str:
+        return "  ".join(c.ljust(w) if i < 2 else c.rjust(w)
+                         for i, (c, w) in enumerate(zip(cells, widths, strict=True))).rstrip()
+
+    src = pooled["period_source"].iloc[0] if len(pooled) else "n/a"
+    ref = pooled["acrophase_reference"].iloc[0] if len(pooled) else "n/a"
+    out = [f"day/night from: {src}; acrophase as {ref}; g = Hedges' effect size; p = "
+           "zero-amplitude test of the 24-h cosinor; unit 1 = dimensionless", line(head)]
+    out.append("-" * len(out[-1]))
+    out += [line(r) for r in rows]
+    return "\n".join(out)

@@ -1,11 +1,11 @@
 """Many recordings at once: dask execution, resume, the study table and group comparison.
 
-A cohort run reads a manifest, runs the single-record pipeline (read, clean, scan, rhythm,
+A cohort run reads a manifest, runs the single-record pipeline (read, clean, scan, circadian,
 optionally the report) on every recording in parallel on a ``dask.distributed`` cluster,
 and writes under ``OUTDIR``:
 
 =========================== ==================================================================
-``records/<record>.nc``     one DataTree per record (``/nn /short /long /record /rhythm``),
+``records/<record>.nc``     one DataTree per record (``/nn /short /long /record /circadian``),
                             written atomically; root attributes ``source_sha256`` and
                             ``parameter_hash`` make a rerun skip it when nothing changed
 ``reports/<record>.html``   the report of each record (only with ``report=True``)
@@ -45,7 +45,7 @@ sleep log and the tfhrv version); its study row is then read from the root attri
 into place, so a killed run leaves no partial output; leftover ``*.part`` files are
 removed on start, and a lock file keeps two runs out of the same ``OUTDIR``.  Failures
 are tried again on every run.  Stages named in ``failures.csv``: read, clean, scan,
-rhythm, write, report, and worker (the worker process died, e.g. out of memory).
+circadian, write, report, and worker (the worker process died, e.g. out of memory).
 """
 
 from __future__ import annotations
@@ -70,10 +70,10 @@ import xarray as xr
 from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions
 from tfhrv.circadian.days import (
     VARIABLES,
-    RhythmOptions,
+    CircadianOptions,
+    circadian_dataset,
+    circadian_table,
     read_sleep_log,
-    rhythm_dataset,
-    rhythm_table,
 )
 from tfhrv.cohort.outputs import (
     BIN_MINUTES,
@@ -88,6 +88,7 @@ from tfhrv.cohort.outputs import (
     write_zarr,
 )
 from tfhrv.core.errors import RecordFormatError
+from tfhrv.core.progress import SILENT, Progress, TextProgress
 from tfhrv.dataset.build import scan
 from tfhrv.dataset.netcdf import atomic_write, file_sha256, write_tree
 from tfhrv.io.readers import parse_start, read_recording
@@ -112,9 +113,10 @@ __all__ = [
     "run_cohort",
     "short_exponents_dataset",
     "study_row",
+    "with_sleep_log",
 ]
 
-STAGES = ("read", "clean", "scan", "rhythm", "write", "report", "worker")
+STAGES = ("read", "clean", "scan", "circadian", "write", "report", "worker")
 RECORDING_SUFFIXES = (".csv", ".csv.gz", ".txt", ".txt.gz", ".tsv", ".tsv.gz", ".rr",
                       ".rr.gz", ".edf")
 QUALITY = ("coverage", "ectopic_fraction", "longest_gap_s", "nn_mean_ms", "nn_sd_ms", "rmssd_ms",
@@ -280,6 +282,40 @@ def _read_manifest_csv(src: Path) -> tuple[ManifestEntry, ...]:
     return tuple(entries)
 
 
+def with_sleep_log(entries: Sequence[ManifestEntry], path: str | Path, /
+                   ) -> tuple[ManifestEntry, ...]:
+    """Give a study-wide sleep log to every record that has rows in it and no log of its own.
+
+    Parameters
+    ----------
+    entries : sequence of ManifestEntry
+    path : str or Path
+        Sleep-log CSV with columns ``record``, ``rest_start``, ``rest_end`` (see
+        :func:`tfhrv.circadian.days.read_sleep_log`); a manifest's own ``sleep_log`` column
+        takes precedence.  Records without rows keep the clock windows (or the inferred rest
+        period).
+
+    Raises
+    ------
+    RecordFormatError
+        When the file is missing or lacks a column.
+    """
+    from dataclasses import replace
+
+    log = Path(path)
+    if not log.is_file():
+        raise RecordFormatError(str(log), "no such sleep-log file")
+    with log.open(newline="", encoding="utf-8-sig") as fh:
+        reader = csv.DictReader(fh)
+        missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
+        if missing:
+            raise RecordFormatError(str(log), f"sleep log lacks column(s) {sorted(missing)}",
+                                    line=1)
+        ids = {(row.get("record") or "").strip() for row in reader}
+    return tuple(replace(e, sleep_log=log.resolve()) if e.sleep_log is None and e.record in ids
+                 else e for e in entries)
+
+
 # ------------------------------------------------------------------------ one record
 
 
@@ -293,7 +329,7 @@ class CohortOptions:
 
     clean: CleanOptions = field(default_factory=CleanOptions)
     scan: ScanOptions = field(default_factory=ScanOptions)
-    rhythm: RhythmOptions = field(default_factory=RhythmOptions)
+    circadian: CircadianOptions = field(default_factory=CircadianOptions)
     report: bool = False
     n_boot: int = 1999
     seed: int = 20261202
@@ -311,7 +347,7 @@ def parameter_hash(options: CohortOptions, entry: ManifestEntry, /) -> str:
 
     blob = {"tfhrv_version": __version__, "calibration_sha256": table_sha256(),
             "clean": asdict(options.clean),
-            "scan": asdict(options.scan), "rhythm": asdict(options.rhythm),
+            "scan": asdict(options.scan), "circadian": asdict(options.circadian),
             "record": entry.record, "start": entry.start,
             "sleep_log_sha256": file_sha256(entry.sleep_log) if entry.sleep_log else None}
     text = json.dumps(blob, sort_keys=True, default=str)
@@ -342,13 +378,14 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
             cleaned = clean(rec, options=options.clean)
             stage = "scan"
             tree = scan(cleaned, options=options.scan)
-            stage = "rhythm"
+            stage = "circadian"
             log = read_sleep_log(entry.sleep_log, entry.record) if entry.sleep_log else None
-            table = rhythm_table(tree, options=options.rhythm, sleep_log=log)
-            tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, options.rhythm, tree=tree,
+            table = circadian_table(tree, options=options.circadian, sleep_log=log)
+            tree["/circadian"] = xr.DataTree(circadian_dataset(table, options.circadian, tree=tree,
                                                          sleep_log=log))
             tree.attrs["parameter_hash"] = param_hash
-            tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv rhythm\ntfhrv cohort"
+            tree.attrs["history"] = (tree.attrs.get("history", "")
+                                     + "\ntfhrv circadian\ntfhrv cohort")
             tree.attrs["warnings"] = " | ".join(sorted(
                 {f"{w.category.__name__}: {w.message}" for w in caught}))
             result = {"row": study_row(tree), "profile": _clock_profile(tree)}
@@ -360,7 +397,7 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
                 from tfhrv.viz.report import write_report
 
                 write_report(tree, Path(outdir) / "reports" / f"{entry.record}.html",
-                             rhythm_table=table)
+                             circadian_table=table)
     except Exception as exc:  # isolate every failure of one record (reported, not raised)
         return {"record": entry.record, "status": "failed", "stage": stage,
                 "error": f"{type(exc).__name__}: {exc}", "seconds": time.perf_counter() - t0,
@@ -373,7 +410,7 @@ def _scalar(ds: xr.Dataset, name: str) -> float:
     return float(ds[name].values) if name in ds else float("nan")
 
 
-def _rhythm_names() -> dict[tuple[str, str], str]:
+def _circadian_names() -> dict[tuple[str, str], str]:
     count = {v: sum(1 for _, w in VARIABLES if w == v) for _, v in VARIABLES}
     return {(t, v): v if count[v] == 1 else f"{v}_{t}" for t, v in VARIABLES}
 
@@ -388,7 +425,7 @@ def study_row(tree: xr.DataTree, /) -> dict:
         ``verdict`` and ``recommended_estimator`` of the whole-record FFT-slope fitness;
         each whole-record exponent (``beta_spectral``, ``beta_wavelet``, ``alpha1``,
         ``alpha2``, ``alpha_long``) with ``<name>_ci_lower``/``_ci_upper``;
-        ``period_source`` and, per rhythm variable (``exponent`` of both tiers is named
+        ``period_source`` and, per circadian variable (``exponent`` of both tiers is named
         ``exponent_short``/``exponent_long``), ``<v>_day``, ``<v>_night``,
         ``<v>_night_minus_day`` with ``_ci_lower``/``_ci_upper`` (block bootstrap),
         ``<v>_mesor``, ``<v>_amplitude``, ``<v>_acrophase_h`` (clock hour of the peak;
@@ -407,11 +444,11 @@ def study_row(tree: xr.DataTree, /) -> dict:
         ci = rec[name + "_ci"].values if name + "_ci" in rec else (np.nan, np.nan)
         row[name + "_ci_lower"], row[name + "_ci_upper"] = float(ci[0]), float(ci[1])
         row[name + "_slope"] = _scalar(rec, name + "_slope")
-    table = (tree["/rhythm"].to_dataset().to_dataframe() if "rhythm" in tree.children
+    table = (tree["/circadian"].to_dataset().to_dataframe() if "circadian" in tree.children
              else pd.DataFrame(columns=["tier", "variable", "day"]))
     pooled = table[table["day"].astype(str) == "all"]
     row["period_source"] = str(pooled["period_source"].iloc[0]) if len(pooled) else ""
-    for (tier, var), name in _rhythm_names().items():
+    for (tier, var), name in _circadian_names().items():
         sel = pooled[(pooled["tier"] == tier) & (pooled["variable"] == var)]
         r = sel.iloc[0] if len(sel) else pd.Series(dtype=float)
         get = lambda k, r=r: float(r[k]) if k in r.index else float("nan")  # noqa: E731
@@ -562,6 +599,12 @@ class _Lock:
             self.fh.close()
 
 
+def _reporter(progress: bool | Progress) -> Progress:
+    if isinstance(progress, Progress):
+        return progress
+    return TextProgress(sys.stderr, prefix="tfhrv cohort") if progress else SILENT
+
+
 def _progress_line(results: dict, total: int, n_skipped: int, t0: float, res: dict) -> str:
     done = sum(1 for r in results.values() if r["status"] in ("done", "skipped"))
     failed = sum(1 for r in results.values() if r["status"] == "failed")
@@ -569,14 +612,50 @@ def _progress_line(results: dict, total: int, n_skipped: int, t0: float, res: di
     what = (f"{res['record']} done in {res['seconds']:.1f} s" if res["status"] == "done" else
             f"{res['record']} FAILED at {res['stage']}: {res['error'][:120]}")
     skip = f" ({n_skipped} of them up to date)" if n_skipped else ""
-    return (f"tfhrv cohort: {done} done{skip}, {failed} failed, {total - len(results)} "
+    return (f"{done} done{skip}, {failed} failed, {total - len(results)} "
             "remaining, "
             f"{el // 3600}:{el // 60 % 60:02d}:{el % 60:02d} elapsed | {what}")
 
 
+def _dask_bar(futures: list, client, reporter: Progress):
+    """Drive ``reporter`` from dask's own progress feed (the scheduler's count of finished
+    tasks, as ``distributed``'s text progress bar reads it), in a background thread.
+
+    Returns the thread, or None when the feed cannot be started; a failure of the feed
+    never touches the run (the per-record lines still come from ``as_completed``).
+    """
+    import threading
+
+    try:
+        from distributed.diagnostics.progressbar import TextProgressBar
+    except ImportError:  # pragma: no cover - distributed without diagnostics
+        return None
+
+    class _Feed(TextProgressBar):
+        def _draw_bar(self, remaining, all, **kwargs):  # noqa: A002 - dask's argument name
+            reporter.update(all - remaining, all)
+
+        def _draw_stop(self, **kwargs):
+            pass
+
+    def run() -> None:
+        try:
+            _Feed(futures, scheduler=client.scheduler.address, interval="200ms", start=True)
+        except Exception:  # noqa: BLE001 - progress is never fatal
+            pass
+
+    thread = threading.Thread(target=run, name="tfhrv-dask-progress", daemon=True)
+    thread.start()
+    return thread
+
+
 def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: CohortOptions,
-             results: dict, *, workers: int | None, scheduler: str | None, report) -> None:
-    """Run the records to do, in process or on dask, into ``results``; ``report`` each."""
+             results: dict, *, workers: int | None, scheduler: str | None, report,
+             reporter: Progress = SILENT) -> None:
+    """Run the records to do, in process or on dask, into ``results``; ``report`` each.
+
+    On dask, an interactive ``reporter`` is also driven by dask's own progress feed
+    (:func:`_dask_bar`)."""
     if not todo:
         return
     if scheduler == "sequential" or (scheduler is None and workers == 0):
@@ -600,6 +679,8 @@ def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: Cohor
         futures = {client.submit(_run_one, entry, str(outdir), options, h,
                                  key=f"tfhrv-cohort-{entry.record}-{h[:16]}"): entry
                    for entry, h in todo}
+        feed = (_dask_bar(list(futures), client, reporter)
+                if getattr(reporter, "interactive", False) else None)
         for fut in as_completed(futures):
             entry = futures[fut]
             try:
@@ -611,6 +692,8 @@ def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: Cohor
             fut.release()
             results[entry.record] = res
             report(res)
+        if feed is not None:
+            feed.join(timeout=2.0)
     finally:
         client.close()
         if cluster is not None:
@@ -662,8 +745,11 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
         ``"tcp://host:port"`` of a running ``dask.distributed`` scheduler (its workers
         should run with ``OPENBLAS_NUM_THREADS=1``), or ``"sequential"`` (in process).
     options : CohortOptions, optional
-    progress : bool, default True
-        Print a line per finished record (done, failed, remaining, elapsed) to stderr.
+    progress : bool or tfhrv.core.progress.Progress, default True
+        Where to report: True writes to stderr (a bar over the records that redraws in
+        place on a terminal, with a line per failed record; elsewhere a line per finished
+        record), False nothing, or a :class:`~tfhrv.core.progress.Progress` of your own.
+        On dask the bar advances as ``distributed.as_completed`` hands back each record.
 
     Returns
     -------
@@ -704,10 +790,11 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
     if out.exists() and not out.is_dir():
         raise ValueError(f"{out}: output exists and is not a folder")
     (out / "records").mkdir(parents=True, exist_ok=True)
-    say = (lambda s: print(s, file=sys.stderr, flush=True)) if progress else (lambda s: None)
+    reporter = _reporter(progress)
+    say = reporter.note
     with _Lock(out):
         if (n := _clean_partials(out)):
-            say(f"tfhrv cohort: removed {n} partial file(s) left by an interrupted run")
+            say(f"removed {n} partial file(s) left by an interrupted run")
         results: dict[str, dict] = {}
         todo = []
         for e in entries:
@@ -719,9 +806,23 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
             else:
                 todo.append((e, h))
         n_skip = len(results)
-        say(f"tfhrv cohort: {len(entries)} records, {n_skip} up to date, {len(todo)} to run")
-        _execute(todo, out, opt, results, workers=workers, scheduler=scheduler,
-                 report=lambda r: say(_progress_line(results, len(entries), n_skip, t0, r)))
+        say(f"{len(entries)} records, {n_skip} up to date, {len(todo)} to run")
+        interactive = bool(getattr(reporter, "interactive", False))
+
+        def one_done(r: dict) -> None:
+            if r["status"] == "failed" or not interactive:
+                say(_progress_line(results, len(entries), n_skip, t0, r))
+            reporter.update(len(results) - n_skip, len(todo))
+
+        if todo:
+            reporter.start(len(todo), "records")
+        try:
+            _execute(todo, out, opt, results, workers=workers, scheduler=scheduler,
+                     report=one_done, reporter=reporter)
+        finally:
+            if todo and interactive:
+                reporter.finish()
+        reporter.stage("study table, group comparison and time-of-day profiles")
         study = _study_table(entries, results)
         comparison = compare_groups(study[study["status"] == "ok"], n_boot=opt.n_boot,
                                     rng=opt.seed)

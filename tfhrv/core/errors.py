@@ -7,6 +7,7 @@ raised by argument validation), so the command line can turn it into one clear l
 from __future__ import annotations
 
 __all__ = [
+    "DeprecatedNameWarning",
     "InsufficientDataError",
     "RecordFormatError",
     "TfhrvWarning",
@@ -16,6 +17,11 @@ __all__ = [
 
 class TfhrvWarning(UserWarning):
     """Base class of the warnings tfhrv emits."""
+
+
+class DeprecatedNameWarning(TfhrvWarning):
+    """A renamed command, option or function was used under its old name (kept for one
+    release)."""
 
 
 class UnknownLabelWarning(TfhrvWarning):

@@ -23,6 +23,7 @@ from tfhrv.analysis.pipeline import (
 )
 from tfhrv.analysis.policy import VERDICTS
 from tfhrv.core.caution import CAUTION
+from tfhrv.core.progress import SILENT, Progress
 from tfhrv.dataset.netcdf import file_sha256
 from tfhrv.dataset.schema import BANDS, BOUNDS, variable
 from tfhrv.estimators.loglog import ScalingFit
@@ -190,7 +191,8 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
         "/record": _record_dataset(analysis)})
 
 
-def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.DataTree:
+def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
+         progress: Progress = SILENT) -> xr.DataTree:
     """Time-resolved scaling analysis of a cleaned recording, as a DataTree.
 
     Parameters
@@ -198,6 +200,8 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
     cleaned : CleanResult
         Output of :func:`tfhrv.signal.clean.clean`.
     options : ScanOptions, optional
+    progress : tfhrv.core.progress.Progress, optional
+        Told each stage and each window (default: silent).
 
     Returns
     -------
@@ -205,4 +209,5 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
         Groups ``/nn``, ``/short``, ``/long`` and ``/record`` (declared in
         :mod:`tfhrv.dataset.schema`).  Root attributes carry the provenance.
     """
-    return build_tree(analyse_record(cleaned, options=options, detail="full"))
+    return build_tree(analyse_record(cleaned, options=options, detail="full",
+                                     progress=progress))

@@ -56,15 +56,25 @@ def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
     return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
 
 
+#: groups renamed since earlier releases: old name -> current name
+RENAMED_GROUPS = {"rhythm": "circadian"}
+
+
 def open_tree(path: str | Path, /, *, check: bool = True) -> xr.DataTree:
     """Open a scan file written by :func:`write_tree`, fully loaded into memory.
 
     With ``check`` (default) the tree is validated against :mod:`tfhrv.dataset.schema`;
     a file that is not a tfhrv scan file raises :class:`~tfhrv.dataset.schema.SchemaError`
-    naming the file and what is missing.
+    naming the file and what is missing.  A group of an older file that has since been
+    renamed (:data:`RENAMED_GROUPS`: the ``/rhythm`` group of tfhrv 0.1 is now
+    ``/circadian``) is returned under its current name, so older scan files keep working.
     """
     from tfhrv.dataset.schema import validate
 
     with xr.open_datatree(path, engine=_ENGINE) as tree:
-        loaded = tree.load()
-    return validate(loaded, path=str(path)) if check else loaded
+        tree = tree.load()
+    for old, new in RENAMED_GROUPS.items():
+        if old in tree.children and new not in tree.children:
+            tree[f"/{new}"] = xr.DataTree(tree[f"/{old}"].to_dataset())
+            del tree[old]
+    return validate(tree, path=str(path)) if check else tree

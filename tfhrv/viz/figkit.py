@@ -14,7 +14,7 @@ from functools import wraps
 import numpy as np
 import xarray as xr
 
-from tfhrv.circadian.days import RhythmOptions
+from tfhrv.circadian.days import CircadianOptions
 from tfhrv.dataset.schema import CATEGORIES
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
 
@@ -33,7 +33,7 @@ _CATEGORY_COLOURS = (_C["green"], _C["yellow"], _C["vermillion"], _C["purple"], 
                      "#E6E6E6")
 _ESTIMATOR_COLOURS = ("#E6E6E6", _C["sky"], _C["blue"], _C["orange"])
 _NONSTATIONARY = tuple(CATEGORIES.index(c) for c in ("trend", "unit-root", "drifting"))
-_MIN_COVERAGE = RhythmOptions().min_coverage
+_MIN_COVERAGE = CircadianOptions().min_coverage
 _FOOT_IN = 0.24  # inches kept free at the bottom of every figure for the footer
 _STYLE = {
     "font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8,
@@ -211,19 +211,19 @@ def _time_axis(ax, clock: _Clock, t_max_h: float) -> None:
 
 def _rest(tree: xr.DataTree):
     """Night/day masks of the short windows from tfhrv.circadian.days, or None when unavailable."""
-    from tfhrv.circadian.days import RhythmOptions, _period_label, _periods
+    from tfhrv.circadian.days import CircadianOptions, _period_label, _periods
 
     short = _ds(tree, "short")
     if short is None or short.sizes.get("time", 0) == 0:
         return None
-    opt = RhythmOptions()
+    opt = CircadianOptions()
     try:
         night, day, day_index, source = _periods(tree, "short", opt, None)
     except (ValueError, KeyError):
         return None
-    kept = tree["/rhythm"].to_dataset() if "rhythm" in tree.children else None
+    kept = tree["/circadian"].to_dataset() if "circadian" in tree.children else None
     if kept is not None and "short_night" in kept and kept["short_night"].size == night.size:
-        # the periods tfhrv rhythm used (a sleep log or non-default clock windows)
+        # the periods tfhrv circadian used (a sleep log or non-default clock windows)
         night = kept["short_night"].values.astype(bool)
         day = kept["short_day"].values.astype(bool)
         return night, day, day_index, str(kept["short_night"].attrs["period_label"])
@@ -269,10 +269,14 @@ def _long_alpha(ds: xr.Dataset) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _fmt_ci(v: float, ci) -> str:
+    """'v [lo, hi]'; an open end (the calibration cannot bound it) reads 'open'."""
+    from tfhrv.calibration.calibrate import interval_text
+
     if not np.isfinite(v):
         return "n/a"
     lo, hi = (float(c) for c in ci) if ci is not None else (np.nan, np.nan)
-    return f"{v:.2f} [{lo:.2f}, {hi:.2f}]" if np.isfinite(lo) and np.isfinite(hi) else f"{v:.2f}"
+    text = interval_text(lo, hi)
+    return f"{v:.2f} {text}" if text != "n/a" else f"{v:.2f} (no interval)"
 
 
 def _gap_s(tree: xr.DataTree) -> float:

@@ -2,7 +2,7 @@
 scale map of the local DFA exponent, the stationarity timeline and the 24-h rhythm.
 
 Every function takes the DataTree written by :func:`tfhrv.dataset.build.scan` (optionally with
-the ``/rhythm`` group of ``tfhrv rhythm``) and returns a :class:`matplotlib.figure.Figure`
+the ``/circadian`` group of ``tfhrv circadian``) and returns a :class:`matplotlib.figure.Figure`
 built with the object API (no pyplot, no global state), so it is safe in scripts, servers
 and notebooks alike.  matplotlib is imported inside the functions: ``import tfhrv`` does
 not import it.
@@ -68,7 +68,7 @@ __all__ = [
     "dfa",
     "logscale",
     "overview",
-    "rhythm",
+    "circadian",
     "save_all",
     "scale_map",
     "spectrum",
@@ -399,14 +399,69 @@ def logscale(tree: xr.DataTree, /):
 # ------------------------------------------------------------------ time-resolved maps
 
 
+#: percentiles of the local exponents that a fitted colour range spans
+ALPHA_RANGE_PERCENTILES = (2.0, 98.0)
+
+
+def _alpha_colours(values: np.ndarray, alpha_range: tuple[float, float] | None):
+    """Colour map, norm, range text and extend of the local-exponent map.
+
+    Fitted (``alpha_range`` None): the 2nd to 98th percentile of the finite values, at
+    least 0.2 wide.  When alpha = 1 lies inside the range the diverging map is centred there
+    (white = 1/f noise); when the whole range is below (above) 1 only the blue (red) half of
+    the map is stretched over it, stopping short of white, so colour keeps its side of 1.
+    """
+    import matplotlib as mpl
+    from matplotlib.colors import ListedColormap, Normalize, TwoSlopeNorm
+
+    base = mpl.colormaps["RdBu_r"]
+    finite = values[np.isfinite(values)]
+    if alpha_range is not None:
+        lo, hi = (float(v) for v in alpha_range)
+        if not (np.isfinite(lo) and np.isfinite(hi) and lo < hi):
+            raise ValueError(f"alpha_range must be two finite numbers LOW < HIGH, got "
+                             f"{alpha_range!r}")
+        how = f"fixed range {lo:g}–{hi:g}"
+    elif finite.size:
+        lo, hi = (float(v) for v in np.percentile(finite, ALPHA_RANGE_PERCENTILES))
+        if hi - lo < 0.2:
+            mid = (hi + lo) / 2
+            lo, hi = mid - 0.1, mid + 0.1
+        lo, hi = np.floor(lo * 20) / 20, np.ceil(hi * 20) / 20
+        how = (f"range fitted to the data (percentiles {ALPHA_RANGE_PERCENTILES[0]:g}–"
+               f"{ALPHA_RANGE_PERCENTILES[1]:g}): {lo:.2f}–{hi:.2f}")
+    else:
+        lo, hi, how = 0.5, 1.5, "fixed range 0.5–1.5"
+    if lo < 1.0 < hi:
+        cmap, norm = base, TwoSlopeNorm(vmin=lo, vcenter=1.0, vmax=hi)
+    elif hi <= 1.0:
+        cmap = ListedColormap(base(np.linspace(0.0, 0.42, 256)), name="RdBu_r_below_1")
+        norm = Normalize(vmin=lo, vmax=hi)
+        how += "; all below α = 1: blue half only"
+    else:
+        cmap = ListedColormap(base(np.linspace(0.58, 1.0, 256)), name="RdBu_r_above_1")
+        norm = Normalize(vmin=lo, vmax=hi)
+        how += "; all above α = 1: red half only"
+    below = bool(finite.size and np.any(finite < lo))
+    above = bool(finite.size and np.any(finite > hi))
+    extend = {(True, True): "both", (True, False): "min", (False, True): "max"}.get(
+        (below, above), "neither")
+    return cmap.with_extremes(bad="#D9D9D9"), norm, how, extend
+
+
 @_figure_function
-def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int = 1):
+def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int = 1,
+              alpha_range: tuple[float, float] | None = None):
     """Time x scale map of the local DFA exponent alpha(n) = d log F / d log n.
 
-    Each cell is one window (drawn one hop wide at its centre) and one box size; the
-    diverging colour map is centred at alpha = 1 (1/f noise) and spans 0.5 (uncorrelated)
-    to 1.5 (Brownian-like), values beyond saturate (arrows on the colour bar); grey cells
-    have no estimate.  A strip above the map marks the night/rest period.
+    Each cell is one window (drawn one hop wide at its centre) and one box size; grey
+    cells have no estimate.  The diverging colour map is centred at alpha = 1 (1/f noise;
+    blue below, towards uncorrelated 0.5, red above, towards Brownian-like 1.5).  By
+    default the colour range is fitted to the data (2nd-98th percentile, see
+    :func:`_alpha_colours`), so a record whose exponents all lie in 0.2-0.4 still shows
+    its structure; ``alpha_range`` fixes it (e.g. (0.5, 1.5) to compare records).  The
+    panel title states the range; values beyond saturate (arrows on the colour bar).  A
+    strip above the map marks the night/rest period.
 
     Parameters
     ----------
@@ -416,13 +471,14 @@ def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int 
         Centred moving average over this many windows before drawing (1 = the raw
         per-window values).  Empty windows stay empty and are not averaged in; the panel
         title states the smoothing.
+    alpha_range : (float, float), optional
+        Fixed colour range (low, high); default: fitted to the data.
 
     Returns
     -------
     matplotlib.figure.Figure
     """
     import matplotlib as mpl
-    from matplotlib.colors import TwoSlopeNorm
     from matplotlib.ticker import FixedLocator, NullFormatter, NullLocator
 
     check_choice(tier, "tier", ("short", "long"))
@@ -448,8 +504,7 @@ def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int 
                       smooth_windows)
     x_edges = _edges(t)
     y_edges = _edges(scales, log=True)
-    cmap = mpl.colormaps["RdBu_r"].with_extremes(bad="#D9D9D9")
-    norm = TwoSlopeNorm(vcenter=1.0, vmin=0.5, vmax=1.5)
+    cmap, norm, colour_range, extend = _alpha_colours(la, alpha_range)
     mesh = ax.pcolormesh(x_edges, y_edges, np.ma.masked_invalid(la.T), cmap=cmap,
                          norm=norm, shading="flat", rasterized=True,
                          gid="local_alpha")
@@ -469,9 +524,15 @@ def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int 
                 color="#262626", bbox={"facecolor": "white", "alpha": 0.7, "lw": 0,
                                        "pad": 1.0})
     ax.set_ylabel("DFA box size n (beats)")
-    cbar = fig.colorbar(mesh, ax=[ax_top, ax], extend="both", pad=0.01, aspect=30)
+    cbar = fig.colorbar(mesh, ax=[ax_top, ax], extend=extend, pad=0.01, aspect=30)
     cbar.set_label(r"local DFA exponent $\alpha(n)$ (dimensionless)")
-    cbar.set_ticks([0.5, 0.75, 1.0, 1.25, 1.5])
+    ticks = mpl.ticker.MaxNLocator(nbins=6).tick_values(norm.vmin, norm.vmax)
+    ticks = ticks[(ticks >= norm.vmin - 1e-9) & (ticks <= norm.vmax + 1e-9)]
+    if norm.vmin < 1.0 < norm.vmax:
+        step = float(np.min(np.diff(ticks))) if ticks.size > 1 else 1.0
+        ticks = np.append(ticks[np.abs(ticks - 1.0) >= step / 2], 1.0)
+    ticks = np.unique(np.round(ticks, 2))
+    cbar.set_ticks(ticks, labels=[f"{v:g}" for v in ticks])
     cbar.ax.tick_params(labelsize=8)
     rest = _rest(tree)
     ax_top.set_ylim(0, 1)
@@ -487,7 +548,8 @@ def scale_map(tree: xr.DataTree, /, *, tier: str = "short", smooth_windows: int 
     smooth = (f"; moving average over {smooth_windows} windows" if smooth_windows > 1
               else "")
     ax.set_title(f"{tier} tier: {_duration(win)} windows every {_duration(hop * 3600)}"
-                 f"{smooth}; grey = no estimate", fontsize=8.5, color="#404040")
+                 f"{smooth}; grey = no estimate\ncolour: {colour_range}", fontsize=8.5,
+                 color="#404040")
     _time_axis(ax, _clock(tree), max(_record_end_h(tree), float(x_edges[-1])))
     return fig
 
@@ -549,11 +611,11 @@ def stationarity_timeline(tree: xr.DataTree, /):
     return fig
 
 
-# ------------------------------------------------------------------ 24-h rhythm
+# ------------------------------------------------------------------ 24-h (circadian)
 
 
 @_figure_function
-def rhythm(tree: xr.DataTree, /):
+def circadian(tree: xr.DataTree, /):
     """Exponents against the 24-h clock with a single-component cosinor and its band.
 
     Top: short-window alpha1; bottom: long-window exponent as alpha = (beta + 1)/2.  Points
@@ -562,14 +624,14 @@ def rhythm(tree: xr.DataTree, /):
     the 24-h cosinor (Nelson et al. 1979; Cornelissen 2014) with a pointwise 95 % band
     from the least-squares covariance, which assumes independent residuals and is
     therefore too narrow for autocorrelated windows.  Night/rest and day spans are shaded.
-    The cosinor needs at least 18 h of data (as :func:`tfhrv.circadian.days.rhythm_table`).
+    The cosinor needs at least 18 h of data (as :func:`tfhrv.circadian.days.circadian_table`).
 
     Returns
     -------
     matplotlib.figure.Figure
     """
     from tfhrv.circadian.core import cosinor
-    from tfhrv.circadian.days import RhythmOptions, _cosinor_time, _periods
+    from tfhrv.circadian.days import CircadianOptions, _cosinor_time, _periods
     from tfhrv.core.errors import InsufficientDataError
 
     rid = tree.attrs.get("record_id", "")
@@ -606,7 +668,7 @@ def rhythm(tree: xr.DataTree, /):
         day_index = np.zeros(t.size, int)
         if _record_end_h(tree) > 24.0:  # colour by noon-to-noon day as tfhrv.circadian.days does
             with contextlib.suppress(ValueError, KeyError):
-                day_index = _periods(tree, tier, RhythmOptions(), None)[2]
+                day_index = _periods(tree, tier, CircadianOptions(), None)[2]
         days = np.unique(day_index[valid])
         for k, d in enumerate(days):
             sel = valid & (day_index == d)
@@ -640,8 +702,9 @@ def rhythm(tree: xr.DataTree, /):
         if r is not None:
             ax.set_ylim(max(r[0], -0.5), min(r[1], 3.0))
         ax.set_ylabel(r"$\alpha$ (dimensionless)")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
-                  handlelength=1.4)
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
+                      handlelength=1.4)
     from matplotlib.ticker import FixedLocator, FuncFormatter
 
     axes[1].xaxis.set_major_locator(FixedLocator(np.arange(0, 25, 3)))
@@ -662,7 +725,7 @@ FIGURES = {
     "scale_map_short": partial(scale_map, tier="short"),
     "scale_map_long": partial(scale_map, tier="long"),
     "stationarity": stationarity_timeline,
-    "rhythm": rhythm,
+    "circadian": circadian,
     "spectrum": spectrum,
     "dfa": dfa,
     "logscale": logscale,
@@ -682,13 +745,14 @@ def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.
 
 def save_all(tree: xr.DataTree, directory: str | Path, /, *,
              formats: tuple[str, ...] = ("png", "svg"), dpi: float = 110.0,
-             prefix: str = "") -> list[Path]:
+             prefix: str = "", alpha_range: tuple[float, float] | None = None,
+             progress=None) -> list[Path]:
     """Render every figure of :data:`FIGURES` and write it in each format.
 
     Parameters
     ----------
     tree : xarray.DataTree
-        A scan (optionally with ``/rhythm``).
+        A scan (optionally with ``/circadian``).
     directory : str or Path
         Output folder (created if needed).
     formats : tuple of {"png", "svg", "pdf"}, default ("png", "svg")
@@ -696,6 +760,10 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         Resolution of raster output.
     prefix : str, default ""
         Prepended to each file name (e.g. the record id in a cohort folder).
+    alpha_range : (float, float), optional
+        Fixed colour range of the local-exponent maps (default: fitted to the data).
+    progress : tfhrv.core.progress.Progress, optional
+        Told each figure (default: silent).
 
     Returns
     -------
@@ -706,10 +774,14 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         formats = (formats,)
     for fmt in formats:
         check_choice(fmt, "formats", ("png", "svg", "pdf"))
+    from tfhrv.core.progress import SILENT
+
     out = Path(directory)
     written = []
-    for name, func in FIGURES.items():
-        fig = func(tree)
+    for name, func in (progress or SILENT).track(FIGURES.items(), total=len(FIGURES),
+                                                 label="figures"):
+        fig = func(tree, alpha_range=alpha_range) if name.startswith("scale_map") \
+            else func(tree)
         for fmt in formats:
             written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi))
     return written

@@ -2,7 +2,7 @@
 and no external reference of any kind, readable on a laptop and printable.
 
 Sections (HTML ids): ``caution-top``, ``summary``, ``quality``, ``verdict``, ``exponents``,
-``time-resolved``, ``rhythm``, ``decision-table``, ``methods``, ``provenance``,
+``time-resolved``, ``circadian``, ``decision-table``, ``methods``, ``provenance``,
 ``caution-bottom``.  Every piece of text that comes from a file (record id, reasons,
 attributes, parameters) is escaped with :func:`html.escape`.
 
@@ -32,7 +32,7 @@ __all__ = ["SECTIONS", "build_report", "write_report"]
 
 #: Section ids in document order.
 SECTIONS = ("caution-top", "summary", "quality", "verdict", "exponents", "time-resolved",
-            "rhythm", "decision-table", "methods", "provenance", "caution-bottom")
+            "circadian", "decision-table", "methods", "provenance", "caution-bottom")
 
 _CSS = """
 :root { --ink:#1a1a1a; --muted:#555; --rule:#d0d0d0; --accent:#0072B2; --warn:#D55E00; }
@@ -175,7 +175,7 @@ _METHODS = (
     "Stationarity: ADF (Said & Dickey 1984), KPSS (Kwiatkowski et al. 1992) and mean/SD "
     "drift against phase-randomised surrogates (Theiler et al. 1992; Schreiber & Schmitz "
     "1996); the category chooses the primary estimator (decision table).",
-    "Rhythm: night − day differences with a moving-block bootstrap interval (Künsch 1989), "
+    "Circadian: night − day differences with a moving-block bootstrap interval (Künsch 1989), "
     "Hedges' g (Hedges 1981), single and 24 + 12 h cosinor (Nelson et al. 1979; Cornelissen "
     "2014).",
     "Figures use the Okabe–Ito colour-blind-safe palette (Wong 2011).",
@@ -196,7 +196,10 @@ def _num(value, digits: int = 2, *, scale: float = 1.0, unit: str = "") -> str:
         return "n/a"
     if not np.isfinite(v):
         return "n/a"
-    return f"{v * scale:.{digits}f}{unit}"
+    text = f"{v * scale:.{digits}f}"
+    if text.startswith("-") and float(text) == 0:  # no "-0" or "-0.00"
+        text = text[1:]
+    return text + unit
 
 
 def _scalar(ds: xr.Dataset | None, name: str) -> float:
@@ -312,7 +315,37 @@ def _quality(rec: xr.Dataset | None) -> str:
     return f"<section id=\"quality\"><h2>Data quality</h2>{out}</section>"
 
 
-def _verdict(rec: xr.Dataset | None) -> str:
+_RECOMMENDED_WHY = {
+    "spectral": "the record is fit, so the classical FFT slope itself",
+    "wavelet": "the trend-robust wavelet slope, since the record is not fit for the FFT slope",
+    "dfa": "DFA, since the record behaves as a motion (wavelet β > 1.5)",
+    "none": "none: no long-range exponent can be estimated on a record this short",
+}
+
+
+def _recommendation_note(tree: xr.DataTree | None, recommended: str) -> str:
+    """Why the whole-record recommendation can differ from the windows' primary estimators."""
+    counts = ""
+    long = _ds(tree, "long") if tree is not None else None
+    if long is not None and "estimator" in long and long.sizes.get("time", 0):
+        from tfhrv.analysis.policy import ESTIMATORS
+
+        codes = np.asarray(long["estimator"].values, int)
+        n = {e: int(np.sum(codes == i)) for i, e in enumerate(ESTIMATORS)}
+        parts = [f"{e} {k}" for e, k in n.items() if k and e != "none"]
+        if parts:
+            counts = (f" In this record the {codes.size} long windows chose: "
+                      f"{', '.join(parts)}" + (f" ({n['none']} without an estimate)"
+                                                if n.get("none") else "") + ".")
+    why = _RECOMMENDED_WHY.get(recommended, recommended)
+    return ("The recommendation is for the whole-record long-range slope (1e-4 to 1e-2 Hz) "
+            f"and follows the verdict and the record's class: {why}. Each window's primary "
+            "estimator is chosen separately, from that window's stationarity category and "
+            "the narrowest calibrated interval among the estimators valid there (decision "
+            f"table below), so the two can differ.{counts}")
+
+
+def _verdict(rec: xr.Dataset | None, tree: xr.DataTree | None = None) -> str:
     va = _verdict_attrs(rec)
     verdict = rec.attrs.get("verdict", "n/a") if rec is not None else "n/a"
     reasons = _json(va.get("reasons", ""), [])
@@ -327,18 +360,53 @@ def _verdict(rec: xr.Dataset | None) -> str:
 
     out = (f"<p>Verdict: <strong>{_e(verdict)}</strong>. "
            f"{_e(_VERDICT_WORDS.get(verdict, ''))} Recommended estimator: "
-           f"<strong>{_e(va.get('recommended_estimator', 'n/a'))}</strong>.</p>")
+           f"<strong>{_e(va.get('recommended_estimator', 'n/a'))}</strong>.</p>"
+           f"<p>{_e(_recommendation_note(tree, str(va.get('recommended_estimator', ''))))}</p>")
     if band.size == 2:
         out += (f"<p>Band judged: {band[0]:.2g}–{band[1]:.2g} Hz (the classical 24-h "
                 "power-law band, common practice).</p>")
     out += "<h3>Reasons (each makes the record unfit)</h3>" + items(reasons)
     out += "<h3>Cautions</h3>" + items(cautions)
     if isinstance(checks, dict) and checks:
-        rows = [[_e(k.replace("_", " ")),
-                 _e(f"{v:.4g}" if isinstance(v, float) else v)] for k, v in checks.items()]
+        rows = [[_e(_CHECKS.get(k, (k.replace("_", " "), None))[0]), _e(_check_value(k, v))]
+                for k, v in checks.items()]
         out += "<h3>Checks behind the verdict</h3>" + _table(["check", "value"], rows,
                                                             numeric={1})
     return f"<section id=\"verdict\"><h2>FFT-slope fitness verdict</h2>{out}</section>"
+
+
+def _pvalue(v: float) -> str:
+    return "< 0.001" if v < 0.001 else f"{v:.3f}"
+
+
+#: check of the verdict -> (label, formatter of a finite value)
+_CHECKS = {
+    "cycles_of_lowest_frequency": ("periods of the lowest fitted frequency in the record",
+                                   lambda v: f"{v:.1f}"),
+    "coverage": ("analysable share of the record", lambda v: f"{100 * v:.1f} %"),
+    "longest_gap_s": ("longest unreadable stretch",
+                      lambda v: f"{v / 60:.1f} min" if v >= 60 else f"{v:.0f} s"),
+    "ectopic_fraction": ("non-sinus (ectopic) beats",
+                      lambda v: f"{100 * v:.2f} %" if v >= 1e-4 or v == 0 else "< 0.01 %"),
+    "nonstationary_share": ("long windows not stationary", lambda v: f"{100 * v:.0f} %"),
+    "r_squared": ("R² of the log-log spectral fit", lambda v: f"{v:.3f}"),
+    "lack_of_fit_pvalue": ("lack-of-fit p (points vs one line)", _pvalue),
+    "excess_scatter": ("RMS departure beyond periodogram scatter",
+                       lambda v: f"{v:.3f} decade"),
+    "curvature_pvalue": ("curvature p (quadratic term)", _pvalue),
+    "beta_spectral": ("β from the FFT slope (calibrated)", lambda v: f"{v:.2f}"),
+    "beta_wavelet": ("β from the wavelet (calibrated)", lambda v: f"{v:.2f}"),
+    "process_class": ("class by wavelet β (fGn < 1 < fBm)", str),
+}
+
+
+def _check_value(key: str, value) -> str:
+    """A check of the verdict with its unit and a sensible number of digits."""
+    fmt = _CHECKS.get(key, (None, lambda v: f"{v:.3g}"))[1]
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        v = float(value)
+        return fmt(v) if np.isfinite(v) else "n/a"
+    return str(value)
 
 
 def _fit_range(rec: xr.Dataset | None, name: str) -> str:
@@ -371,7 +439,7 @@ def _with_ci(v, lo, hi, digits: int) -> str:
     return f"{_num(v, digits)} [{_num(lo, digits)}, {_num(hi, digits)}]"
 
 
-_UNITS = {"nn_mean_ms": "ms", "nn_sd_ms": "ms", "lf_power": "ms²", "hf_power": "ms²"}
+from tfhrv.circadian.days import UNITS as _UNITS  # noqa: E402  (one list of units)
 
 
 def _exponents(rec: xr.Dataset | None) -> str:
@@ -395,10 +463,12 @@ def _exponents(rec: xr.Dataset | None) -> str:
         "not a diagnosis.</strong></p></div></section>")
 
 
-def _rhythm_tables(table: pd.DataFrame | None) -> str:
+def _circadian_tables(table: pd.DataFrame | None, skipped: str = "") -> str:
     if table is None or table.empty:
-        return ("<p>No day/night table: run <code>tfhrv rhythm</code> on the scan file, or the "
-                "record is too short.</p>")
+        if skipped:
+            return f"<p>No day/night table: {_e(skipped)}.</p>"
+        return ("<p>No day/night table: run <code>tfhrv circadian</code> on the scan file, or "
+                "the record is too short.</p>")
     t = table.copy()
     t["day"] = t["day"].astype(str)
     pooled = t[t["day"] == "all"]
@@ -527,19 +597,26 @@ def _calibration_model(tree: xr.DataTree) -> str:
     return model if model in _CALIBRATION_TEXT else "powerlaw"
 
 
-def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = None,
-                 dpi: float = 110.0) -> str:
+def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None = None,
+                 dpi: float = 110.0, progress=None, started: float | None = None) -> str:
     """The HTML report of one scan, as a string.
 
     Parameters
     ----------
     tree : xarray.DataTree
-        Output of :func:`tfhrv.dataset.build.scan`, optionally with the ``/rhythm`` group.
-    rhythm_table : pandas.DataFrame, optional
-        Output of :func:`tfhrv.circadian.days.rhythm_table`; by default the ``/rhythm`` group of
-        ``tree`` is used when present.
+        Output of :func:`tfhrv.dataset.build.scan`, optionally with the ``/circadian`` group.
+    circadian_table : pandas.DataFrame, optional
+        Output of :func:`tfhrv.circadian.days.circadian_table`; by default the ``/circadian``
+        group of ``tree`` is used when present.
     dpi : float, default 110
         Resolution of the embedded PNG figures.
+    progress : tfhrv.core.progress.Progress, optional
+        Told each figure (default: silent).
+    started : float, optional
+        ``time.perf_counter()`` when the work behind the report began (the command line
+        passes its own start); the footer then gives the time from there, the command's
+        own run time.  Without it, the footer gives the time to draw the figures and write the
+        HTML, and says so.
 
     Returns
     -------
@@ -552,24 +629,28 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
 
     t0 = time.perf_counter()
     rec = _ds(tree, "record")
-    if rhythm_table is None and "rhythm" in tree.children:
-        rhythm_table = tree["rhythm"].to_dataset().to_dataframe().reset_index(drop=True)
+    if circadian_table is None and "circadian" in tree.children:
+        circadian_table = tree["circadian"].to_dataset().to_dataframe().reset_index(drop=True)
     rid = str(tree.attrs.get("record_id", ""))
     caution = _e(CAUTION)
-    figs = {name: _figure(func(tree), dpi, alt, cap) for name, func, alt, cap in (
+    from tfhrv.core.progress import SILENT
+
+    figure_list = (
         ("overview", plots.overview, "NN intervals and exponent tracks over time",
          "NN intervals (grey), 5-min mean (black), removed beats (ticks), gaps (grey spans), "
          "non-stationary windows (orange strip) and night/rest period (blue); below, α1 of "
          "5-min windows and the long-window exponent as α with calibrated 95 % intervals."),
         ("scale_short", plots.scale_map, "time by scale map of the local DFA exponent",
          "Local DFA exponent α(n) per 5-min window and box size; white = 1 (1/f), blue "
-         "towards 0.5 (uncorrelated), red towards 1.5 (Brownian-like); grey = no estimate."),
+         "below (towards 0.5, uncorrelated), red above (towards 1.5, Brownian-like); grey = "
+         "no estimate. The colour range is fitted to this record's values and stated above "
+         "the map (tfhrv figures --alpha-range fixes it to compare records)."),
         ("scale_long", lambda t: plots.scale_map(t, tier="long"),
          "time by scale map of the local DFA exponent, long windows",
          "The same for 4-h windows (1-h hop), reaching longer box sizes."),
         ("stationarity", plots.stationarity_timeline, "stationarity category per window",
          "Stationarity category and primary estimator of every window."),
-        ("rhythm", plots.rhythm, "exponents against clock time with cosinor fits",
+        ("circadian", plots.circadian, "exponents against clock time with cosinor fits",
          "Exponents against the 24-h clock with a single-component cosinor; the band is "
          "pointwise from the least-squares covariance and too narrow for autocorrelated "
          "windows."),
@@ -580,7 +661,9 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
          "F(n) with the α1, α2 and long-range lines; below, the local slope."),
         ("logscale", plots.logscale, "wavelet log-scale diagram",
          "y_j with ±1.96 SD bars and the weighted line over the octaves used."),
-    )}
+    )
+    figs = {name: _figure(func(tree), dpi, alt, cap) for name, func, alt, cap in
+            (progress or SILENT).track(figure_list, total=len(figure_list), label="figures")}
     created = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
     refs = "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES)
     calibration = _CALIBRATION_TEXT[_calibration_model(tree)]
@@ -596,26 +679,38 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
         f"<h1>Scaling analysis of record {_e(rid)}</h1>",
         f"<p class=\"sub\">tfhrv {_e(__version__)} · report built {_e(created)}</p>",
         f"<nav><ol>{nav}</ol></nav>",
-        _summary(tree, rec), _quality(rec), _verdict(rec), _exponents(rec),
+        _summary(tree, rec), _quality(rec), _verdict(rec, tree), _exponents(rec),
         "<section id=\"time-resolved\"><h2>Time-resolved figures</h2>",
         figs["overview"], figs["scale_short"], figs["scale_long"], figs["stationarity"],
         "<h3>Whole-record fits</h3>", figs["spectrum"], figs["dfa"], figs["logscale"],
         "</section>",
-        "<section id=\"rhythm\"><h2>Day/night contrasts and 24-h rhythm</h2>",
-        figs["rhythm"], _rhythm_tables(rhythm_table), "</section>",
+        "<section id=\"circadian\"><h2>Day/night contrasts and 24-h rhythm</h2>",
+        figs["circadian"],
+        _circadian_tables(circadian_table, str(tree.attrs.get("circadian_skipped", ""))),
+        "</section>",
         _decision_table(tree),
         f"<section id=\"methods\"><h2>Methods</h2><ul>{methods}</ul>"
         f"<h3>References</h3><ul class=\"refs\">{refs}</ul></section>",
         _provenance(tree),
         f"<div id=\"caution-bottom\" class=\"caution\" role=\"note\">{caution}</div>",
-        f"<footer>Built in {time.perf_counter() - t0:.1f} s by tfhrv {_e(__version__)}."
+        f"<footer>{_e(_build_time(t0, started))} by tfhrv {_e(__version__)}."
         "</footer></body></html>",
     ]
     return "\n".join(parts)
 
 
+def _build_time(t0: float, started: float | None) -> str:
+    now = time.perf_counter()
+    if started is not None:
+        return (f"Analysis and report took {now - started:.1f} s from the start of the "
+                "command (loading, reading, cleaning, scanning, circadian analysis, figures "
+                "and HTML)")
+    return f"Figures and HTML built in {now - t0:.1f} s (the analysis before it not counted)"
+
+
 def write_report(tree: xr.DataTree, path: str | Path, /, *,
-                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0) -> Path:
+                 circadian_table: pd.DataFrame | None = None, dpi: float = 110.0,
+                 progress=None, started: float | None = None) -> Path:
     """Build the report and write it atomically (temporary file, then ``os.replace``).
 
     Returns
@@ -625,5 +720,8 @@ def write_report(tree: xr.DataTree, path: str | Path, /, *,
     """
     from tfhrv.dataset.netcdf import atomic_write
 
-    text = build_report(tree, rhythm_table=rhythm_table, dpi=dpi)
+    text = build_report(tree, circadian_table=circadian_table, dpi=dpi, progress=progress,
+                        started=started)
+    if progress is not None:
+        progress.stage(f"write {path}")
     return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))

@@ -9,11 +9,11 @@ import pytest
 import xarray as xr
 
 from tfhrv.circadian.days import (
-    RhythmOptions,
-    format_rhythm,
+    CircadianOptions,
+    circadian_dataset,
+    circadian_table,
+    format_circadian,
     read_sleep_log,
-    rhythm_dataset,
-    rhythm_table,
 )
 from tfhrv.dataset.build import scan
 from tfhrv.signal.clean import clean
@@ -37,7 +37,7 @@ def _row(table, variable, tier="short", day="all"):
 
 def test_clock_windows_give_the_known_directions(day_worker):
     _, tree = day_worker
-    table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
+    table = circadian_table(tree, options=CircadianOptions(n_boot=199))
     a1 = _row(table, "alpha1")
     nn = _row(table, "nn_mean_ms")
     assert a1.period_source == "clock"
@@ -51,20 +51,20 @@ def test_clock_windows_give_the_known_directions(day_worker):
     peak = nn.acrophase_h
     assert (peak >= 23) or (peak <= 7), peak
     assert nn.cosinor_p < 1e-6
-    text = format_rhythm(table)
+    text = format_circadian(table)
     assert "alpha1 (short)" in text and "clock" in text
 
 
 def test_unknown_clock_uses_the_inferred_rest_period(day_worker):
     sim, _ = day_worker
     tree = scan(clean(sim.recording.with_start(None)))
-    table = rhythm_table(tree, options=RhythmOptions(n_boot=199))
+    table = circadian_table(tree, options=CircadianOptions(n_boot=199))
     nn = _row(table, "nn_mean_ms")
     assert nn.period_source == "inferred rest period"
     assert nn.acrophase_reference == "hours from start"
     assert nn.difference > 100  # the inferred block holds the longest intervals
     with pytest.raises(ValueError, match="--start"):
-        rhythm_table(tree, options=RhythmOptions(period="clock"))
+        circadian_table(tree, options=CircadianOptions(period="clock"))
 
 
 def test_sleep_log_takes_precedence(day_worker, tmp_path):
@@ -74,7 +74,7 @@ def test_sleep_log_takes_precedence(day_worker, tmp_path):
                    f"{tree.attrs['record_id']},2026-03-02T23:00,2026-03-03T07:00\n")
     periods = read_sleep_log(log, tree.attrs["record_id"])
     assert periods == [(dt.datetime(2026, 3, 2, 23), dt.datetime(2026, 3, 3, 7))]
-    table = rhythm_table(tree, options=RhythmOptions(n_boot=199), sleep_log=periods)
+    table = circadian_table(tree, options=CircadianOptions(n_boot=199), sleep_log=periods)
     nn = _row(table, "nn_mean_ms")
     assert nn.period_source == "sleep log"
     assert np.isfinite(nn.difference) and nn.difference > 100
@@ -91,19 +91,19 @@ def test_sleep_log_errors_name_file_and_line(tmp_path):
         read_sleep_log(bad, "r2")
 
 
-def test_rhythm_group_keeps_the_periods_figures_shade(day_worker):
+def test_circadian_group_keeps_the_periods_figures_shade(day_worker):
     # a sleep log 01:00-05:00 differs from the default clock night 00:00-06:00: the
-    # /rhythm group keeps the mask the contrasts used and the figures shade that one
+    # /circadian group keeps the mask the contrasts used and the figures shade that one
     from tfhrv.viz.figkit import _rest
 
     _, tree = day_worker
     periods = [(dt.datetime(2026, 3, 3, 1), dt.datetime(2026, 3, 3, 5))]
-    opt = RhythmOptions(n_boot=199)
-    table = rhythm_table(tree, options=opt, sleep_log=periods)
+    opt = CircadianOptions(n_boot=199)
+    table = circadian_table(tree, options=opt, sleep_log=periods)
     t = tree.copy()
-    t["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt, tree=t, sleep_log=periods))
+    t["/circadian"] = xr.DataTree(circadian_dataset(table, opt, tree=t, sleep_log=periods))
     clock = t["/short"]["clock_hour"].values
-    night = t["/rhythm"]["short_night"].values.astype(bool)
+    night = t["/circadian"]["short_night"].values.astype(bool)
     assert night.any() and np.all((clock[night] >= 1.0) & (clock[night] < 5.0 + 1 / 12))
     shaded, _, _, label = _rest(t)
     np.testing.assert_array_equal(shaded, night)

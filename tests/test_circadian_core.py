@@ -171,7 +171,7 @@ def test_delta_ci_coverage_95():
     # Composite (24 h + 12 h) model with no true 12-h component: the composite peak is at
     # 15 h and the first component's amplitude is 5. The composite-peak delta interval is
     # first-order only: at noise SD 3 it undercovers (0.88 over 1000 seeds, 0.93 with
-    # N = 240; scripts/rhythm_core_coverage.py), so this check uses noise SD 1.5 (0.937
+    # N = 240; scripts/circadian_core_coverage.py), so this check uses noise SD 1.5 (0.937
     # over 1000 seeds).
     cov_a2, cov_p2 = _coverage("delta", 2, noise_sd=1.5)
     assert lo <= cov_a2 <= hi, cov_a2

@@ -2,9 +2,9 @@
 
 Prints, for each CI method and model, the share of seeds whose 95 % interval holds the
 true amplitude (first component) and the true peak time. Numbers quoted in the cosinor
-docstring and in tests/test_rhythm_core.py come from this script.
+docstring and in tests/test_circadian_core.py come from this script.
 
-Run: .venv/bin/python scripts/rhythm_core_coverage.py [n_seeds]
+Run: .venv/bin/python scripts/circadian_core_coverage.py [n_seeds]
 """
 
 from __future__ import annotations
