@@ -88,24 +88,37 @@ def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetim
     if not p.is_file():
         raise RecordFormatError(str(p), "no such sleep-log file")
     out = []
-    with p.open(newline="") as fh:
-        reader = csv.DictReader(fh)
-        missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
-        if missing:
-            raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
-                                    line=1)
-        for i, row in enumerate(reader, start=2):
-            if row["record"].strip() != record_id:
-                continue
-            try:
-                a = dt.datetime.fromisoformat(row["rest_start"].strip())
-                b = dt.datetime.fromisoformat(row["rest_end"].strip())
-            except ValueError:
-                raise RecordFormatError(str(p), "rest_start/rest_end must be ISO 8601 "
-                                        "timestamps", line=i) from None
-            if b <= a:
-                raise RecordFormatError(str(p), "rest_end is not after rest_start", line=i)
-            out.append((a, b))
+    try:
+        with p.open(newline="", encoding="utf-8-sig") as fh:
+            reader = csv.DictReader(fh)
+            missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
+            if missing:
+                raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
+                                        line=1)
+            for row in reader:
+                i = reader.line_num
+                if None in row or any(v is None for v in row.values()):
+                    raise RecordFormatError(str(p), "row has a different number of fields "
+                                            "than the header", line=i)
+                if row["record"].strip() != record_id:
+                    continue
+                try:
+                    a = dt.datetime.fromisoformat(row["rest_start"].strip())
+                    b = dt.datetime.fromisoformat(row["rest_end"].strip())
+                except ValueError:
+                    raise RecordFormatError(str(p), "rest_start/rest_end must be ISO 8601 "
+                                            "timestamps", line=i) from None
+                if (a.tzinfo is None) != (b.tzinfo is None):
+                    raise RecordFormatError(str(p), "rest_start and rest_end mix a UTC "
+                                            "offset and a naive time", line=i)
+                if b <= a:
+                    raise RecordFormatError(str(p), "rest_end is not after rest_start",
+                                            line=i)
+                out.append((a, b))
+    except UnicodeDecodeError:
+        raise RecordFormatError(str(p), "is not a UTF-8 text (CSV) file") from None
+    except csv.Error as exc:
+        raise RecordFormatError(str(p), f"is not a readable CSV file ({exc})") from None
     if not out:
         raise RecordFormatError(str(p), f"no rest period for record {record_id!r}")
     return out

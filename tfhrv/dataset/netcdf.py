@@ -9,14 +9,15 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import io
 import json
-import os
-import tempfile
 from pathlib import Path
 
 import xarray as xr
 
 from tfhrv.core.caution import CAUTION
+from tfhrv.core.errors import RecordFormatError
+from tfhrv.core.files import atomic_write
 
 __all__ = ["CAUTION", "atomic_write", "file_sha256", "open_tree", "provenance", "write_tree"]
 
@@ -55,34 +56,57 @@ def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
     return attrs
 
 
-def atomic_write(path: str | Path, write) -> Path:
-    """Call ``write(tmp_path)`` then rename the temporary file onto ``path``.
+def netcdf_bytes(tree: xr.DataTree, /) -> bytes:
+    """The NetCDF4 file of a DataTree, rendered in memory.
 
-    The temporary file lives in the same folder (same file system) and is removed if
-    ``write`` raises.
+    HDF5 does not recover from a failed write (a full disk or a file size limit ended in
+    a segmentation fault), so the file is built in memory and written with a plain
+    ``write``, whose failure is an ordinary ``OSError``.
     """
-    dest = Path(path)
-    dest.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{dest.name}.", suffix=".part", dir=dest.parent)
-    os.close(fd)
-    try:
-        write(Path(tmp))
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual file mode
-        os.replace(tmp, dest)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return dest
+    buf = io.BytesIO()
+    tree.to_netcdf(buf, engine=_ENGINE, mode="w")
+    return buf.getvalue()
 
 
-def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
-    """Write a DataTree as NetCDF4 with groups, atomically."""
-    return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
+def write_bytes(data: bytes):
+    """A writer for :func:`tfhrv.core.files.atomic_write` that stores ``data``."""
+    def write(tmp: Path) -> None:
+        with Path(tmp).open("wb") as fh:
+            fh.write(data)
+            fh.flush()
+    return write
+
+
+def write_tree(tree: xr.DataTree, path: str | Path, /, *, outputs=None) -> Path:
+    """Write a DataTree as NetCDF4 with groups, atomically.
+
+    With ``outputs`` (a :class:`tfhrv.core.files.OutputSet`) the file is staged there and
+    renamed with the command's other outputs.
+    """
+    write = write_bytes(netcdf_bytes(tree))
+    if outputs is not None:
+        return outputs.add(path, write)
+    return atomic_write(path, write)
 
 
 def open_tree(path: str | Path, /) -> xr.DataTree:
-    """Open a DataTree written by :func:`write_tree`, fully loaded into memory."""
-    with xr.open_datatree(path, engine=_ENGINE) as tree:
-        return tree.load()
+    """Open a DataTree written by :func:`write_tree`, fully loaded into memory.
+
+    Raises
+    ------
+    RecordFormatError
+        Naming the file when it is not a NetCDF4/HDF5 file or is damaged or truncated.
+    """
+    name = str(path)
+    try:
+        with xr.open_datatree(path, engine=_ENGINE) as tree:
+            return tree.load()
+    except FileNotFoundError:
+        raise RecordFormatError(name, "no such file") from None
+    except IsADirectoryError:
+        raise RecordFormatError(name, "is a folder, not a scan file") from None
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise RecordFormatError(
+            name, "is not a readable NetCDF4 scan file (not NetCDF4/HDF5, damaged or "
+            f"truncated: {first[:120]})") from None

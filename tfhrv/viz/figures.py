@@ -184,7 +184,7 @@ def overview(tree: xr.DataTree, /):
     ax_nn.tick_params(labelbottom=False)
     legend = {"loc": "lower left", "bbox_to_anchor": (0.0, 1.0), "fontsize": 7.5,
               "handlelength": 1.6, "columnspacing": 1.2, "borderaxespad": 0.2}
-    ax_nn.legend(ncol=3, **legend)
+    _legend(ax_nn, ncol=3, **legend)
     if handles:
         ax_ex.legend(*zip(*handles, strict=True), ncol=2,
                      title="shaded: calibrated 95 % confidence interval",
@@ -266,8 +266,8 @@ def spectrum(tree: xr.DataTree, /):
     ax_r.set_ylabel("residual\n(log10 units)")
     ax_r.set_xlabel("frequency (Hz)")
     ax.tick_params(labelbottom=False)
-    ax.legend(loc="lower left", title=f"β = {_fmt_ci(beta, ci)} (calibrated, 95 % CI)",
-              title_fontsize=8.5, alignment="left")
+    _legend(ax, loc="lower left", title=f"β = {_fmt_ci(beta, ci)} (calibrated, 95 % CI)",
+            title_fontsize=8.5, alignment="left")
     return fig
 
 
@@ -341,8 +341,8 @@ def dfa(tree: xr.DataTree, /):
     ax_s.set_ylabel("local slope\n(dimensionless)")
     ax_s.set_xlabel("box size n (beats)")
     ax.tick_params(labelbottom=False)
-    ax.legend(loc="upper left", title="bias-corrected value [calibrated 95 % CI]",
-              title_fontsize=8, alignment="left")
+    _legend(ax, loc="upper left", title="bias-corrected value [calibrated 95 % CI]",
+            title_fontsize=8, alignment="left")
     return fig
 
 
@@ -392,8 +392,8 @@ def logscale(tree: xr.DataTree, /):
         top.tick_params(labelsize=7.5)
         top.set_xlabel(r"time scale $2^j$ × mean NN interval", fontsize=8)
     value = _fmt_ci(_scalar(rec, "beta_wavelet"), _values(rec, "beta_wavelet_ci"))
-    ax.legend(loc="upper left", title=f"β = {value} (calibrated, 95 % CI)",
-              title_fontsize=8.5, alignment="left")
+    _legend(ax, loc="upper left", title=f"β = {value} (calibrated, 95 % CI)",
+            title_fontsize=8.5, alignment="left")
     return fig
 
 
@@ -641,8 +641,8 @@ def rhythm(tree: xr.DataTree, /):
         if r is not None:
             ax.set_ylim(max(r[0], -0.5), min(r[1], 3.0))
         ax.set_ylabel(r"$\alpha$ (dimensionless)")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
-                  handlelength=1.4)
+        _legend(ax, loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
+                handlelength=1.4)
     from matplotlib.ticker import FixedLocator, FuncFormatter
 
     axes[1].xaxis.set_major_locator(FixedLocator(np.arange(0, 25, 3)))
@@ -653,6 +653,16 @@ def rhythm(tree: xr.DataTree, /):
                        "hours from start, folded on 24 h (clock time unknown)")
     axes[0].tick_params(labelbottom=False)
     return fig
+
+
+def _legend(ax, **kw) -> None:
+    """``ax.legend`` with the labelled artists that exist: no legend when there are none
+    and no title, a title-only legend otherwise (matplotlib warns "No artists with labels
+    found" when asked to find handles that a sparse record did not draw)."""
+    handles, labels = ax.get_legend_handles_labels()
+    if not handles and not kw.get("title"):
+        return
+    ax.legend(handles, labels, **kw)
 
 
 # ------------------------------------------------------------------ saving
