@@ -18,6 +18,7 @@ import json  # noqa: E402
 import sys  # noqa: E402
 import warnings  # noqa: E402
 from collections.abc import Sequence  # noqa: E402
+from functools import partial  # noqa: E402
 
 from tfhrv.core.caution import CAUTION  # noqa: E402
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError, TfhrvWarning  # noqa: E402
@@ -40,6 +41,11 @@ def _add_reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--start", help="wall-clock start: ISO 8601 timestamp or time of day HH:MM[:SS]"
                    " (overrides the file)")
     g.add_argument("--record-id", help="record identifier (default: from the file)")
+    g.add_argument("--tz", help="IANA time zone of the clock times, e.g. Europe/Berlin: clock "
+                   "hours are then local civil time through daylight-saving changes (needs a "
+                   "start with a date)")
+    g.add_argument("--max-span-days", type=float, default=31.0,
+                   help="longest accepted recording span, days (31; common practice)")
 
 
 #: tfhrv.calibration.calibrate.MODELS, spelled out so that --help needs no numpy import
@@ -71,14 +77,66 @@ def _read(args: argparse.Namespace):
         args.recording, fmt=args.fmt, units=args.units, delimiter=delimiter,
         decimal=args.decimal, time_column=args.time_column, clock_column=args.clock_column,
         interval_column=args.interval_column, label_column=args.label_column,
-        start=args.start, record_id=args.record_id,
+        start=args.start, record_id=args.record_id, tz=args.tz,
+        max_span_s=args.max_span_days * 86400.0,
     )
+
+
+def _clean(rec, args: argparse.Namespace):
+    from tfhrv.signal.clean import CleanOptions, clean
+
+    return clean(rec, options=CleanOptions(max_span_s=args.max_span_days * 86400.0))
+
+
+def _finite(v) -> bool:
+    return v is not None and v == v and abs(v) != float("inf")
+
+
+#: option -> (test, what it must be); every numeric option is checked here, before any
+#: work starts, so that NaN, infinities and out-of-range values never reach the library.
+_OPTION_RULES = {
+    "max_gap": (lambda v: _finite(v) and v > 0, "a number > 0"),
+    "min_coverage": (lambda v: _finite(v) and 0 <= v <= 100, "a percentage from 0 to 100"),
+    "max_ectopic": (lambda v: _finite(v) and 0 <= v <= 100, "a percentage from 0 to 100"),
+    "max_nonstationary": (lambda v: _finite(v) and 0 <= v <= 100,
+                          "a percentage from 0 to 100"),
+    "short_window": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
+    "short_hop": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
+    "long_window": (lambda v: _finite(v) and 0 < v <= 168, "hours, > 0 and <= 168"),
+    "long_hop": (lambda v: _finite(v) and 0 < v <= 168, "hours, > 0 and <= 168"),
+    "vanishing_moments": (lambda v: 1 <= v <= 10, "an integer from 1 to 10"),
+    "rest_hours": (lambda v: _finite(v) and 0 < v < 24, "hours, > 0 and < 24"),
+    "night": (lambda v: all(_finite(x) and 0 <= x <= 24 for x in v), "two hours from 0 to 24"),
+    "day": (lambda v: all(_finite(x) and 0 <= x <= 24 for x in v), "two hours from 0 to 24"),
+    "max_span_days": (lambda v: _finite(v) and 0 < v <= 3660, "days, > 0 and <= 3660"),
+    "workers": (lambda v: v >= 0, "an integer >= 0"),
+    "days": (lambda v: _finite(v) and 0 < v <= 31, "days, > 0 and <= 31"),
+}
+
+
+def check_options(args: argparse.Namespace) -> None:
+    """Refuse every bad option value in one place, before any file is read or written."""
+    for dest, (ok, what) in _OPTION_RULES.items():
+        value = getattr(args, dest, None)
+        if value is not None and not ok(value):
+            flag = "--" + dest.replace("_", "-")
+            raise ValueError(f"{flag} must be {what}, got {value!r}")
+    if getattr(args, "tz", None) is not None:
+        from tfhrv.signal.clock import load_zone
+
+        load_zone(args.tz)
+
+
+def _protect(outputs, inputs) -> None:
+    """Refuse an output that is an input (or another output), before any work starts."""
+    from tfhrv.core.files import check_outputs
+
+    check_outputs(outputs, inputs)
 
 
 def _cmd_inspect(args: argparse.Namespace) -> int:
     from tfhrv.analysis.inspection import format_inspection, inspect_record, inspection_dict
     from tfhrv.analysis.policy import FitnessThresholds, explain_table
-    from tfhrv.signal.clean import clean
 
     if args.explain:
         print(explain_table())
@@ -90,7 +148,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     thresholds = FitnessThresholds(
         max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
         max_ectopic=args.max_ectopic / 100.0, max_nonstationary=args.max_nonstationary / 100.0)
-    ins = inspect_record(clean(_read(args)), thresholds=thresholds)
+    ins = inspect_record(_clean(_read(args), args), thresholds=thresholds)
     if args.json:
         print(json.dumps(inspection_dict(ins), indent=2, default=float))
     else:
@@ -127,12 +185,12 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
 def _cmd_scan(args: argparse.Namespace) -> int:
     from tfhrv.dataset.build import scan
     from tfhrv.dataset.netcdf import write_tree
-    from tfhrv.signal.clean import clean
 
     _check_output(args.output, (".nc",))
+    _protect([("output", args.output)], [("recording", args.recording)])
     options = _scan_options(args)
     rec = _read(args)
-    tree = scan(clean(rec), options=options)
+    tree = scan(_clean(rec, args), options=options)
     write_tree(tree, args.output)
     rec_ds = tree["/record"]
     print(f"wrote {args.output}: {tree['/short'].sizes['time']} short and "
@@ -153,36 +211,40 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
         rhythm_dataset,
         rhythm_table,
     )
-    from tfhrv.dataset.netcdf import atomic_write, open_tree, write_tree
+    from tfhrv.core.files import OutputSet
+    from tfhrv.dataset.netcdf import open_tree, write_tree
 
     path = Path(args.scan_file)
     if not path.is_file():
         raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    csv_path = Path(args.csv) if args.csv else path.with_suffix(".rhythm.csv")
+    _protect([("--csv table", csv_path)], [("scan file", path), ("--sleep-log", args.sleep_log)])
+    _protect([("updated scan file", path)], [("--sleep-log", args.sleep_log)])
     tree = open_tree(path)
     opt = RhythmOptions(night_hours=tuple(args.night), day_hours=tuple(args.day),
                         period=args.period, rest_hours=args.rest_hours)
     log = (read_sleep_log(args.sleep_log, tree.attrs.get("record_id", ""))
            if args.sleep_log else None)
     table = rhythm_table(tree, options=opt, sleep_log=log)
-    csv_path = Path(args.csv) if args.csv else path.with_suffix(".rhythm.csv")
-    atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
     tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, opt, tree=tree, sleep_log=log))
     tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv rhythm"
-    write_tree(tree, path)
+    with OutputSet() as out:  # both or neither
+        out.add(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
+        write_tree(tree, path, outputs=out)
     print(format_rhythm(table))
     print(f"\nwrote {csv_path} and the /rhythm group of {path}")
     return 0
 
 
-def _pipeline(rec, options, rhythm_options=None):
+def _pipeline(rec, options, rhythm_options=None, clean_options=None):
     """read -> clean -> scan -> rhythm: the tree with its /rhythm group, and the table."""
     import xarray as xr
 
     from tfhrv.circadian.days import RhythmOptions, rhythm_dataset, rhythm_table
     from tfhrv.dataset.build import scan
-    from tfhrv.signal.clean import clean
+    from tfhrv.signal.clean import CleanOptions, clean
 
-    tree = scan(clean(rec), options=options)
+    tree = scan(clean(rec, options=clean_options or CleanOptions()), options=options)
     ropt = rhythm_options or RhythmOptions()
     table = rhythm_table(tree, options=ropt)
     tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt, tree=tree))
@@ -198,24 +260,38 @@ def _cmd_figures(args: argparse.Namespace) -> int:
     path = Path(args.scan_file)
     if not path.is_file():
         raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    from tfhrv.core.files import OutputSet
+    from tfhrv.viz.figures import FIGURES
+
     out = Path(args.directory)
     if out.exists() and not out.is_dir():
         raise ValueError(f"{out}: exists and is not a folder")
-    written = save_all(open_tree(path), out, formats=tuple(args.formats))
+    _protect([(f"figure {n}.{f}", out / f"{n}.{f}") for n in FIGURES for f in args.formats],
+             [("scan file", path)])
+    tree = open_tree(path)
+    with OutputSet() as staged:
+        written = save_all(tree, out, formats=tuple(args.formats), outputs=staged)
     print(f"wrote {len(written)} files to {out}")
     return 0
 
 
 def _cmd_report(args: argparse.Namespace) -> int:
+    from tfhrv.core.files import OutputSet
     from tfhrv.dataset.netcdf import write_tree
+    from tfhrv.signal.clean import CleanOptions
     from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
-    tree, table = _pipeline(_read(args), _scan_options(args))
-    path = write_report(tree, args.output, rhythm_table=table)
     if args.scan_output:
         _check_output(args.scan_output, (".nc",))
-        write_tree(tree, args.scan_output)
+    _protect([("report", args.output), ("--scan-output", args.scan_output)],
+             [("recording", args.recording)])
+    tree, table = _pipeline(_read(args), _scan_options(args), clean_options=CleanOptions(
+        max_span_s=args.max_span_days * 86400.0))
+    with OutputSet() as out:  # the report and the scan file, or neither
+        path = write_report(tree, args.output, rhythm_table=table, outputs=out)
+        if args.scan_output:
+            write_tree(tree, args.scan_output, outputs=out)
     print(f"wrote {path}: FFT-slope verdict {tree['/record'].attrs['verdict']}")
     return 0
 
@@ -224,8 +300,9 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     import tfhrv
+    from tfhrv.core.files import OutputSet
     from tfhrv.dataset.build import ScanOptions
-    from tfhrv.dataset.netcdf import atomic_write, write_tree
+    from tfhrv.dataset.netcdf import write_tree
     from tfhrv.io.readers import read_recording
     from tfhrv.viz.report import write_report
 
@@ -237,11 +314,13 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     out.mkdir(parents=True, exist_ok=True)
     print(f"demo recording: {demo.name} (invented 48-h day worker of a fictional shift-work "
           "study)")
-    tree, table = _pipeline(read_recording(demo), ScanOptions())
-    write_tree(tree, out / "sw01_day_worker.nc")
+    tree, table = _pipeline(read_recording(demo, tz=args.tz), ScanOptions())
     atomic_csv = out / "sw01_day_worker.rhythm.csv"
-    atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
-    report = write_report(tree, out / "sw01_day_worker_report.html", rhythm_table=table)
+    with OutputSet() as staged:  # all three or none
+        write_tree(tree, out / "sw01_day_worker.nc", outputs=staged)
+        staged.add(atomic_csv, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
+        report = write_report(tree, out / "sw01_day_worker_report.html", rhythm_table=table,
+                              outputs=staged)
     print(f"verdict: {tree['/record'].attrs['verdict']}")
     print(f"wrote {out / 'sw01_day_worker.nc'} and {atomic_csv}")
     print(f"report: {report.resolve()}")
@@ -367,6 +446,8 @@ def build_parser() -> argparse.ArgumentParser:
                        "path. " + CAUTION)
     p.add_argument("-o", "--output-dir", default="demo_output",
                    help="output folder (demo_output)")
+    p.add_argument("--tz", help="IANA time zone to read the demo's clock times in, e.g. "
+                   "Europe/Berlin (default: naive local clock time)")
     p.set_defaults(func=_cmd_demo)
 
     p = sub.add_parser("cohort", help="many recordings on dask; study table; group comparison",
@@ -406,12 +487,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("default", TfhrvWarning)
-            warnings.showwarning = _show_warning
+            warnings.showwarning = partial(_show_warning, debug=args.debug)
+            check_options(args)
             return int(args.func(args) or 0)
-    except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError) as exc:
+    except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError,
+            MemoryError) as exc:
         if args.debug:
             raise
-        print(f"tfhrv: error: {exc}", file=sys.stderr)
+        print(f"tfhrv: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except BrokenPipeError:  # output piped into head & co.
         return 0
@@ -420,8 +503,27 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"tfhrv: warning: {message}", file=sys.stderr)
+def _one_line(exc: BaseException, limit: int = 500) -> str:
+    """The error as one line of readable length."""
+    if isinstance(exc, MemoryError):
+        return "out of memory"
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= limit else text[:limit] + "..."
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None, *,
+                  debug=False) -> None:
+    """Our warnings go to the terminal; a library's go to the ``tfhrv`` log (shown with
+    --debug): they concern our code, not the user's data."""
+    if issubclass(category, TfhrvWarning):
+        print(f"tfhrv: warning: {_one_line(message)}", file=sys.stderr)
+        return
+    import logging
+
+    logging.getLogger("tfhrv").debug("%s: %s (%s:%s)", category.__name__, message, filename,
+                                     lineno)
+    if debug:
+        print(f"tfhrv: debug: library warning {category.__name__}: {message}", file=sys.stderr)
 
 
 if __name__ == "__main__":  # pragma: no cover

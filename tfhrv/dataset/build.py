@@ -247,22 +247,23 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions
             m = np.minimum(diag.octaves.size, octaves.size)
             v["wavelet_energy"][w, :m] = diag.energy[:m]
     centres = np.array([win.start_s for win in windows]) + tier.window_s / 2
-    return _tier_dataset(arr, centres, rec.start, tier), v["stationarity"]
+    return _tier_dataset(arr, centres, rec, tier), v["stationarity"]
 
 
-def _time_coords(elapsed_s: np.ndarray, start) -> dict:
+def _time_coords(elapsed_s: np.ndarray, rec) -> dict:
+    start = rec.start
     td = (np.round(elapsed_s * 1e3)).astype("int64").astype("timedelta64[ms]")
     coords: dict = {"elapsed": ("time", elapsed_s, {"units": "s",
                                                      "long_name": "time from recording start"})}
     if isinstance(start, dt.datetime):
         base = np.datetime64(start.replace(tzinfo=None), "ms")
-        coords["time"] = ("time", base + td, {"long_name": "window centre (clock time)"})
+        coords["time"] = ("time", base + td, {
+            "long_name": "window centre (clock time at the start's UTC offset; "
+                         "clock_hour is local civil time)"})
     else:
         coords["time"] = ("time", td, {"long_name": "window centre (time from start)"})
-    if start is not None:
-        tod = start.time() if isinstance(start, dt.datetime) else start
-        h0 = tod.hour + tod.minute / 60 + tod.second / 3600
-        coords["clock_hour"] = ("time", (h0 + elapsed_s / 3600.0) % 24.0,
+    if start is not None:  # local civil time, through daylight-saving changes
+        coords["clock_hour"] = ("time", rec.clock_hours(elapsed_s),
                                 {"units": "h", "long_name": "clock time of day"})
     return coords
 
@@ -296,7 +297,7 @@ _ATTRS = {
 }
 
 
-def _tier_dataset(arr: _TierArrays, centres: np.ndarray, start, tier: TierSpec) -> xr.Dataset:
+def _tier_dataset(arr: _TierArrays, centres: np.ndarray, rec, tier: TierSpec) -> xr.Dataset:
     v = arr.values
     data = {}
     for name, val in v.items():
@@ -329,7 +330,7 @@ def _tier_dataset(arr: _TierArrays, centres: np.ndarray, start, tier: TierSpec) 
         "flag_values": np.arange(len(ESTIMATORS), dtype=np.int8),
         "flag_meanings": " ".join(ESTIMATORS)})
     data["reason"] = ("time", v["reason"].astype(str), {"long_name": _ATTRS["reason"][1]})
-    coords = _time_coords(centres, start)
+    coords = _time_coords(centres, rec)
     coords.update({
         "band": ("band", list(BANDS), {"long_name": "Task Force 1996 frequency band"}),
         "band_low_hz": ("band", [TASK_FORCE_BANDS[b][0] for b in BANDS], {"units": "Hz"}),
@@ -487,5 +488,8 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
     root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
                            else "time-of-day" if rec.start is not None else "unknown")
     root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
+    clock = rec.clock
+    root.attrs["time_zone"] = ("" if clock is None else clock.zone or "UTC offsets of the file")
+    root.attrs["utc_offset_changes"] = json.dumps([] if clock is None else clock.changes())
     return xr.DataTree.from_dict({"/": root, "/nn": _nn_dataset(cleaned), "/short": short,
                                   "/long": long, "/record": record})

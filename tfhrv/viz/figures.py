@@ -680,20 +680,25 @@ FIGURES = {
 }
 
 
-def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.0) -> Path:
-    """Write one figure atomically (temporary file in the same folder, then ``os.replace``)."""
-    from tfhrv.dataset.netcdf import atomic_write
+def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.0,
+                outputs=None) -> Path:
+    """Write one figure atomically (temporary file in the same folder, then ``os.replace``),
+    or stage it in ``outputs`` (a :class:`tfhrv.core.files.OutputSet`)."""
+    from tfhrv.core.files import atomic_write
 
     check_choice(fmt, "fmt", ("png", "svg", "pdf"))
     dpi = check_positive(dpi, "dpi")
     meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
-    return atomic_write(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi,
-                                                      metadata=meta[fmt]))
+
+    def write(tmp):
+        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=meta[fmt])
+
+    return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
 
 
 def save_all(tree: xr.DataTree, directory: str | Path, /, *,
              formats: tuple[str, ...] = ("png", "svg"), dpi: float = 110.0,
-             prefix: str = "") -> list[Path]:
+             prefix: str = "", outputs=None) -> list[Path]:
     """Render every figure of :data:`FIGURES` and write it in each format.
 
     Parameters
@@ -707,6 +712,9 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         Resolution of raster output.
     prefix : str, default ""
         Prepended to each file name (e.g. the record id in a cohort folder).
+    outputs : tfhrv.core.files.OutputSet, optional
+        Stage the files there (renamed with the command's other outputs) instead of
+        writing each at once.
 
     Returns
     -------
@@ -722,5 +730,6 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
     for name, func in FIGURES.items():
         fig = func(tree)
         for fmt in formats:
-            written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi))
+            written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi,
+                                       outputs=outputs))
     return written

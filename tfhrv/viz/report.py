@@ -615,15 +615,21 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
 
 
 def write_report(tree: xr.DataTree, path: str | Path, /, *,
-                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0) -> Path:
-    """Build the report and write it atomically (temporary file, then ``os.replace``).
+                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0,
+                 outputs=None) -> Path:
+    """Build the report and write it atomically (temporary file, then ``os.replace``), or
+    stage it in ``outputs`` (a :class:`tfhrv.core.files.OutputSet`).
 
     Returns
     -------
     Path
         The file written.
     """
-    from tfhrv.dataset.netcdf import atomic_write
+    from tfhrv.core.files import atomic_write
 
     text = build_report(tree, rhythm_table=rhythm_table, dpi=dpi)
-    return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+
+    def write(tmp):
+        Path(tmp).write_text(text, encoding="utf-8")
+
+    return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
