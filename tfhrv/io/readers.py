@@ -564,8 +564,8 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, 
     if i_time is None and i_clock is None and i_rr is None:
         raise RecordFormatError(
             name, "no beat-time, clock or interval column found among "
-            f"{short_text(', '.join(header), 200)}; name them (e.g. beat_time_s, rr_ms, label) or use "
-            "--time-column/--interval-column", line=body.numbers[0])
+            f"{short_text(', '.join(header), 200)}; name them (e.g. beat_time_s, rr_ms, "
+            "label) or use --time-column/--interval-column", line=body.numbers[0])
     _check_truncated(body, name, nf, sep)
     counts = np.fromiter((r.count(sep) for r in rows), dtype=np.int64, count=len(rows))
     wrong = counts != nf - 1
