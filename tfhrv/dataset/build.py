@@ -367,7 +367,8 @@ def _record_dataset(cleaned: CleanResult, long_categories: np.ndarray, opt: Scan
     for name in EXPONENTS:
         f = fits[name]
         units, long_name = _ATTRS[name]
-        data[name] = ((), val(name), {"units": units, "long_name": long_name + " (whole record)"})
+        data[name] = ((), val(name), {"units": units, "long_name": long_name + " (whole record)",
+                                      "withheld": f.withheld if f is not None else ""})
         data[name + "_se"] = ((), f.se if f is not None else np.nan,
                               {"units": units, "long_name": "standard error of " + name})
         data[name + "_ci"] = (("bound",), np.asarray(f.ci if f is not None else (np.nan,) * 2),

@@ -92,10 +92,10 @@ class LocalClock:
     >>> z = load_zone("Europe/Berlin")
     >>> start = dt.datetime(2026, 3, 29, 0, 0, tzinfo=z)
     >>> c = LocalClock.from_zone(z, start, 6 * 3600.0)
-    >>> c.change_s.tolist(), c.offset_s.tolist()
-    ([-inf, 3600.0], [3600.0, 7200.0])
-    >>> c.clock_hours(start, np.array([1800.0, 5400.0])).tolist()
-    [0.5, 3.5]
+    >>> c.change_s.tolist(), c.offset_s.tolist()  # 02:00 CET is 2 h after midnight
+    ([-inf, 7200.0], [3600.0, 7200.0])
+    >>> c.clock_hours(start, np.array([5400.0, 9000.0])).tolist()  # 01:30, then 03:30
+    [1.5, 3.5]
     """
 
     change_s: np.ndarray
