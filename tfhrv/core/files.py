@@ -153,8 +153,8 @@ class OutputSet:
     >>> import pathlib, tempfile
     >>> d = pathlib.Path(tempfile.mkdtemp())
     >>> with OutputSet() as out:
-    ...     out.add(d / "a.txt", lambda tmp: tmp.write_text("a"))
-    ...     out.add(d / "b.txt", lambda tmp: tmp.write_text("b"))
+    ...     _ = out.add(d / "a.txt", lambda tmp: tmp.write_text("a"))
+    ...     _ = out.add(d / "b.txt", lambda tmp: tmp.write_text("b"))
     >>> sorted(p.name for p in d.iterdir())
     ['a.txt', 'b.txt']
     """
