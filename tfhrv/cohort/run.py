@@ -87,7 +87,7 @@ from tfhrv.cohort.outputs import (
     write_zarr,
 )
 from tfhrv.core.errors import RecordFormatError
-from tfhrv.core.files import OutputSet, safe_file_stem, short_text
+from tfhrv.core.files import OutputError, OutputSet, safe_file_stem, short_text
 from tfhrv.dataset.build import EXPONENTS, ScanOptions, scan
 from tfhrv.dataset.netcdf import file_sha256, netcdf_bytes, write_bytes
 from tfhrv.io.readers import parse_start, read_recording
@@ -812,17 +812,29 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
              for e in entries if results[e.record]["status"] == "failed"],
             columns=["record", "path", "stage", "error"])
         ok = [e for e in entries if results[e.record].get("row") is not None]
-        with OutputSet() as staged:  # the study outputs are renamed together, or not at all
+        # the tables first, renamed together: on a full disk the study still says what
+        # happened to every record; then the derived outputs, renamed together
+        with OutputSet() as staged:
             staged.add(out / "failures.csv", lambda tmp: fails.to_csv(tmp, index=False))
             staged.add(out / "study.csv", lambda tmp: study.to_csv(tmp, index=False))
-            staged.add(out / "study.parquet", lambda tmp: study.to_parquet(tmp, index=False))
             staged.add(out / "comparison.csv",
                        lambda tmp: comparison.to_csv(tmp, index=False))
-            figure = plot_comparison(study, comparison, out / "comparison.png",
-                                     groups=group_labels(study["group"]), outputs=staged)
-            write_zarr(short_exponents_dataset([e.record for e in ok], [e.group for e in ok],
-                                                [results[e.record]["profile"] for e in ok]),
-                        out / "short_exponents.zarr", outputs=staged)
+        derived = (out / "study.parquet", out / "comparison.png", out / "short_exponents.zarr")
+        try:
+            with OutputSet() as staged:
+                staged.add(derived[0], lambda tmp: study.to_parquet(tmp, index=False))
+                figure = plot_comparison(study, comparison, derived[1],
+                                         groups=group_labels(study["group"]), outputs=staged)
+                write_zarr(short_exponents_dataset(
+                    [e.record for e in ok], [e.group for e in ok],
+                    [results[e.record]["profile"] for e in ok]), derived[2], outputs=staged)
+        except OSError as exc:
+            for p in derived:  # no stale derived output beside the new tables
+                shutil.rmtree(p, ignore_errors=True) if p.is_dir() else p.unlink(
+                    missing_ok=True)
+            raise OutputError(out, "study.csv, comparison.csv and failures.csv were written, "
+                              f"but not study.parquet, comparison.png and the Zarr store: "
+                              f"{exc}") from None
         if figure is None:
             (out / "comparison.png").unlink(missing_ok=True)  # no stale figure
     records = tuple({k: v for k, v in results[e.record].items() if k not in ("row", "profile")}
