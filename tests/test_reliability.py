@@ -318,7 +318,47 @@ def test_bad_options_refused_before_reading(option, value, tmp_path, capsys):
     assert option in line and "absent.csv" not in line
 
 
+# ------------------------------------------------------------------ warnings
+
+
+def test_figures_of_a_sparse_scan_emit_no_library_warning(scan_file, tmp_path, capsys):
+    """A 3-h record leaves most curves undrawn; matplotlib used to warn "No artists with
+    labels found to put in legend" (pytest turns any warning into an error here)."""
+    assert main(["figures", str(scan_file), "-d", str(tmp_path / "f"), "--formats",
+                 "png"]) == 0
+    assert "warning" not in capsys.readouterr().err
+
+
+def test_library_warnings_go_to_the_log_not_the_terminal(tmp_path, capsys, caplog):
+    import logging
+    import warnings
+
+    from tfhrv.cli import _show_warning
+
+    with caplog.at_level(logging.DEBUG, logger="tfhrv"):
+        _show_warning("No artists with labels found", UserWarning, "x.py", 1)
+    assert capsys.readouterr().err == "" and "No artists" in caplog.text
+    from tfhrv.core.errors import TfhrvWarning
+
+    _show_warning("unknown beat label", TfhrvWarning, "x.py", 1)
+    assert capsys.readouterr().err.startswith("tfhrv: warning: unknown beat label")
+    del warnings
+
+
 # ------------------------------------------------------------------ messages
+
+
+def test_errors_name_the_users_file(tmp_path, capsys):
+    """A problem found after reading (here: clock windows without a clock start) still
+    names the user's file."""
+    p = tmp_path / "short.txt"
+    p.write_text("800\n810\n795\n" * 50)
+    nc = tmp_path / "short.nc"
+    assert main(["scan", str(p), "-o", str(nc)]) == 0
+    capsys.readouterr()
+    assert main(["rhythm", str(nc), "--period", "clock"]) == 2
+    line = _one_error_line(capsys.readouterr().err)
+    assert line.startswith(f"tfhrv: error: {nc}: ") and "clock start" in line
 
 
 def test_huge_line_is_not_echoed_whole(tmp_path, capsys):

@@ -484,20 +484,26 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``tfhrv`` command."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    source = None  # the user's file, named in every error once the options are checked
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("default", TfhrvWarning)
             warnings.showwarning = partial(_show_warning, debug=args.debug)
             check_options(args)
+            source = next((str(v) for k in ("recording", "scan_file", "manifest")
+                           if (v := getattr(args, k, None)) is not None), None)
             return int(args.func(args) or 0)
+    except BrokenPipeError:  # output piped into head & co. (an OSError: caught first)
+        return 0
     except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError,
             MemoryError) as exc:
         if args.debug:
             raise
-        print(f"tfhrv: error: {_one_line(exc)}", file=sys.stderr)
+        text = _one_line(exc)
+        if source is not None and not isinstance(exc, OSError) and source not in text:
+            text = f"{source}: {text}"
+        print(f"tfhrv: error: {text}", file=sys.stderr)
         return 2
-    except BrokenPipeError:  # output piped into head & co.
-        return 0
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("tfhrv: interrupted", file=sys.stderr)
         return 130
