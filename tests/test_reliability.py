@@ -391,3 +391,63 @@ def test_max_span_option_admits_the_rare_long_record(tmp_path, capsys):
     with pytest.raises(ValueError, match="max_span_s"):
         clean(rec)
     assert clean(rec, options=CleanOptions(max_span_s=50 * 86400)).quality.n_gaps == 1
+
+
+# ------------------------------------------------------------------ no number from nothing
+
+
+def _on_off_white_noise(rng):
+    """White noise (true beta 0; Kobayashi & Musha 1982 for the 1/f contrast) recorded
+    20 min of every hour for 24 h."""
+    t_parts, rr_parts = [], []
+    for h in range(24):
+        rr = 800 + 40 * rng.standard_normal(1500)
+        t = h * 3600 + np.cumsum(rr) / 1000.0
+        keep = t < h * 3600 + 1200
+        t_parts.append(t[keep])
+        rr_parts.append(rr[keep])
+    return np.concatenate(t_parts), np.concatenate(rr_parts)
+
+
+def test_no_exponent_for_a_mostly_filled_series(rng):
+    from tfhrv.analysis.policy import calibrated_fit
+
+    t, rr = _on_off_white_noise(rng)
+    fit = calibrated_fit("beta_spectral_long", rr, beat_time_s=t)
+    assert fit.withheld.startswith("filled:") and np.isnan(fit.exponent)
+    assert np.isnan(fit.ci).all() and fit.options["interpolated_fraction"] > 0.6
+    # 28 min of data around a 20-h gap
+    rr2 = 800 + 40 * rng.standard_normal(2100)
+    t2 = np.cumsum(rr2) / 1000.0
+    t2[1050:] += 20 * 3600
+    assert calibrated_fit("beta_spectral_long", rr2, beat_time_s=t2).withheld.startswith(
+        "filled:")
+    # the same noise recorded without gaps keeps its exponent (near the true 0)
+    rr3 = 800 + 40 * rng.standard_normal(100_000)
+    ok = calibrated_fit("beta_spectral_long", rr3)
+    assert ok.withheld == "" and abs(ok.exponent) < 0.3
+
+
+def test_no_exponent_for_a_rhythm_without_scaling(rng):
+    from tfhrv.analysis.policy import calibrated_fit, calibrated_fits
+    from tfhrv.synth import fgn
+
+    k = np.arange(3000)
+    sine = 800 + 50 * np.sin(2 * np.pi * k / 12)  # a pure 12-beat rhythm: no power law
+    assert calibrated_fit("alpha1", sine).withheld.startswith("no-power-law:")
+    fits, _ = calibrated_fits({"alpha1": "alpha1", "alpha2": "alpha2"}, sine)
+    assert fits["alpha1"].withheld.startswith("no-power-law:")
+    assert np.isnan(fits["alpha1"].exponent)
+    noise = 800 + 40 * fgn(3000, 0.9, rng=rng)  # fGn: alpha1 is reported
+    fits, _ = calibrated_fits({"alpha1": "alpha1", "alpha2": "alpha2"}, noise)
+    assert fits["alpha1"].withheld == "" and np.isfinite(fits["alpha1"].exponent)
+
+
+def test_inspect_states_the_reason(tmp_path, capsys, rng):
+    t, rr = _on_off_white_noise(rng)
+    p = tmp_path / "onoff.csv"
+    p.write_text("time_s,rr_ms\n" + "\n".join(f"{a:.3f},{b:.1f}" for a, b in zip(t, rr,
+                                                                               strict=True)))
+    assert main(["inspect", str(p)]) == 0
+    out = capsys.readouterr().out
+    assert "beta FFT none (filled)" in out and "no exponent beta FFT: filled" in out

@@ -344,7 +344,7 @@ def fitness_verdict(
 #: interpolation across gaps (beyond half, the interpolation, not the heart, makes the
 #: slope; common practice).  ``max_dfa_rms``: RMS departure (log10 units, weighted) of
 #: the DFA points from their line; measured on the open long-term records
-#: (tests/data note in docs/RELIABILITY.md): over 560 windows of 300 beats the largest was
+#: (``scripts/withhold_limits.py``): over 560 windows of 300 beats the largest was
 #: 0.074 for alpha1 and 0.114 for alpha2, over 600 fGn series (H 0.1-0.99) 0.035 and
 #: 0.066, while a 12-beat sinusoid gives 0.13 for alpha1.  ``linearity_alpha`` and
 #: ``max_excess_scatter``: the spectral lack-of-fit test against the known scatter of

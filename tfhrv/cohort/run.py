@@ -8,6 +8,9 @@ and writes under ``OUTDIR``:
 ``records/<record>.nc``     one DataTree per record (``/nn /short /long /record /rhythm``),
                             written atomically; root attributes ``source_sha256`` and
                             ``parameter_hash`` make a rerun skip it when nothing changed
+                            (``<record>`` is the record id when it is a short plain name,
+                            else a safe stem plus a hash: :func:`tfhrv.core.files.safe_file_stem`)
+``.checksums/<record>.json`` SHA-256 of the record's outputs, written with them
 ``reports/<record>.html``   the report of each record (only with ``report=True``)
 ``study.parquet``/``.csv``  one row per record: manifest columns, quality, verdict,
                             whole-record exponents with intervals, day/night values and
@@ -26,21 +29,25 @@ Manifest
 A CSV file with a header.  Columns (names are case-sensitive):
 
 - ``path`` (required): the recording file, relative to the manifest's folder or absolute;
-- ``record``: record identifier, unique, usable as a file name (default: the file stem);
+- ``record``: record identifier, unique, any text (default: the file stem);
 - ``group``: study group (default: empty);
 - ``start`` or ``start_time_of_day``: clock start, an ISO 8601 timestamp or ``HH:MM[:SS]``
   (default: the file's own, if any);
 - ``sleep_log``: a sleep-log CSV (``record,rest_start,rest_end``) for day/night;
+- ``tz``: IANA time zone of the record's naive clock times (e.g. ``Europe/Berlin``);
 - any other column is carried through to the study table (numbers stay numbers).
 
 Instead of a manifest, a folder or a glob pattern of recording files can be given (record
-id = file stem, no group).  Every bad row (missing ``path`` column, empty path, missing
-file, duplicate record id, bad start, missing sleep log) is reported with its line before
-any work starts.  ``docs/manifest_example.csv`` is an example.
+id = file stem, no group).  Every bad row (missing ``path`` column, a column named twice,
+more fields than the header, empty path, missing file, duplicate record id, bad start,
+unknown time zone, missing or unreadable sleep log, no rest period for the record) is
+reported with its line before any work starts.  ``docs/manifest_example.csv`` is an example.
 
-Resume: a record is skipped when its ``.nc`` exists with the input file's current SHA-256
-and the same parameter hash (SHA-256 of the JSON of every option, the record's start,
-sleep log and the tfhrv version); its study row is then read from the root attribute
+Resume: a record is skipped when its ``.nc`` (and report) match the SHA-256 stored in
+``.checksums`` when they were written (a damaged file of the same size is redone), its
+root attributes carry the input file's current SHA-256 and the same parameter hash
+(SHA-256 of the JSON of every option, the record's start, time zone, sleep log and the
+tfhrv version); its study row is then read from the root attribute
 ``cohort_summary`` (JSON) instead of the whole file.  Output files are only ever renamed
 into place, so a killed run leaves no partial output; leftover ``*.part`` files are
 removed on start, and a lock file keeps two runs out of the same ``OUTDIR``.  Failures
