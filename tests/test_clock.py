@@ -153,6 +153,10 @@ def test_cli_tz_option(tmp_path, capsys):
 
     path = tmp_path / "f.csv"
     _write_clock_file(path, dt.datetime(2026, 10, 24, 23, 0, tzinfo=UTC), 2.0)
+    import json
+
     assert main(["inspect", str(path), "--tz", "Europe/Berlin", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["time_zone"] == "Europe/Berlin" and data["start"].endswith("+02:00")
     assert main(["inspect", str(path), "--tz", "Nowhere/Town"]) == 2
     assert "IANA" in capsys.readouterr().err

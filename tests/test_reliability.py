@@ -378,6 +378,14 @@ def test_absurd_value_names_file_and_line(value, tmp_path, capsys):
     assert f"{p}, line 101" in line and "beyond the limit" in line
 
 
+def test_window_count_is_bounded():
+    from tfhrv.analysis.windows import MAX_WINDOWS, TierSpec, window_starts
+
+    assert window_starts(86400.0, None, TierSpec(300.0, 300.0, "short")).size == 288
+    with pytest.raises(ValueError, match=f"at most {MAX_WINDOWS}"):
+        window_starts(31 * 86400.0, None, TierSpec(1.0, 1.0, "short"))
+
+
 def test_max_span_option_admits_the_rare_long_record(tmp_path, capsys):
     from tfhrv.io.readers import read_recording
     from tfhrv.signal.clean import CleanOptions, clean

@@ -82,6 +82,7 @@ def inspection_dict(ins: Inspection, /) -> dict:
         "verdict": v.verdict,
         "verdict_detail": v.as_dict(),
         "start": start,
+        "time_zone": (rec.clock.zone or "UTC offsets of the file") if rec.clock else None,
         "start_kind": ("timestamp" if isinstance(rec.start, dt.datetime)
                        else "time-of-day" if rec.start is not None else "unknown"),
         "quality": cleaned.quality.as_dict(),
