@@ -160,3 +160,31 @@ def test_cli_tz_option(tmp_path, capsys):
     assert data["time_zone"] == "Europe/Berlin" and data["start"].endswith("+02:00")
     assert main(["inspect", str(path), "--tz", "Nowhere/Town"]) == 2
     assert "IANA" in capsys.readouterr().err
+
+
+def test_rhythm_local_hours_follow_the_change():
+    """Day boundaries and cosinor time use local civil hours: after a fall-back change the
+    clock reads one hour less than start + elapsed (checked against datetime)."""
+    import xarray as xr
+
+    from tfhrv.circadian.days import _local_hours
+
+    start_utc = dt.datetime(2026, 10, 24, 22, 0, tzinfo=UTC)  # 00:00 CEST
+    elapsed = np.arange(0, 8 * 3600, 300.0) + 150.0
+    clock = _expected_hours(start_utc, elapsed)
+    ds = xr.Dataset(coords={"elapsed": ("time", elapsed), "clock_hour": ("time", clock)})
+    local = _local_hours(ds)
+    naive = elapsed / 3600.0
+    before = elapsed < 3 * 3600  # the change is at 01:00 UTC, 3 h after the start
+    np.testing.assert_allclose(local[before], naive[before], atol=1e-9)
+    np.testing.assert_allclose(local[~before], naive[~before] - 1.0, atol=1e-9)
+
+
+def test_sleep_log_in_local_time_with_a_zone():
+    from tfhrv.circadian.days import _hours_between
+
+    start = dt.datetime(2026, 10, 24, 20, 0, tzinfo=BERLIN)  # 18:00 UTC
+    # 06:00 local on the 25th is CET (+1): 05:00 UTC, 11 h after the start
+    assert _hours_between(start, dt.datetime(2026, 10, 25, 6, 0), "Europe/Berlin") == 11.0
+    assert _hours_between(start.replace(tzinfo=None), dt.datetime(2026, 10, 25, 6, 0), "") \
+        == 10.0

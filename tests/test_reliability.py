@@ -39,11 +39,11 @@ def _one_error_line(err: str) -> str:
 
 @pytest.fixture(scope="module")
 def recording(tmp_path_factory) -> Path:
-    """Three hours of fGn-like intervals with a clock start (invented data)."""
+    """About 67 minutes of fGn-like intervals with a clock start (invented data)."""
     from tfhrv.synth import fgn
 
     d = tmp_path_factory.mktemp("rec")
-    rr = 800 + 40 * fgn(13000, 0.8, rng=7)
+    rr = 800 + 40 * fgn(5000, 0.8, rng=7)
     p = d / "rec.csv"
     p.write_text("# start: 2026-03-02T22:00:00\nrr_ms\n" + "\n".join(f"{v:.1f}" for v in rr)
                  + "\n")
@@ -459,3 +459,17 @@ def test_inspect_states_the_reason(tmp_path, capsys, rng):
     assert main(["inspect", str(p)]) == 0
     out = capsys.readouterr().out
     assert "beta FFT none (filled)" in out and "no exponent beta FFT: filled" in out
+
+
+def test_damaged_scan_file_is_named(scan_file, tmp_path, capsys):
+    """A truncated scan file or a foreign format: one line naming the file (issue 19,
+    item 7; the schema check itself is tfhrv.dataset.schema's)."""
+    cut = tmp_path / "cut.nc"
+    cut.write_bytes(scan_file.read_bytes()[: scan_file.stat().st_size // 3])
+    text = tmp_path / "text.nc"
+    text.write_text("rr_ms\n800\n")
+    for p in (cut, text):
+        assert main(["rhythm", str(p)]) == 2
+        line = _one_error_line(capsys.readouterr().err)
+        assert f"{p}: is not a readable NetCDF4 scan file" in line
+    assert sorted(q.name for q in tmp_path.iterdir()) == ["cut.nc", "text.nc"]
