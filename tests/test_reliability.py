@@ -473,3 +473,17 @@ def test_damaged_scan_file_is_named(scan_file, tmp_path, capsys):
         line = _one_error_line(capsys.readouterr().err)
         assert f"{p}: is not a readable NetCDF4 scan file" in line
     assert sorted(q.name for q in tmp_path.iterdir()) == ["cut.nc", "text.nc"]
+
+
+def test_cohort_manifest_tz_column(recording, tmp_path):
+    import xarray as xr
+
+    from tfhrv.cohort.run import run_cohort
+
+    man = tmp_path / "m.csv"
+    man.write_text(f"path,record,group,tz\n{recording},a,x,Europe/Berlin\n")
+    res = run_cohort(man, tmp_path / "out", workers=0, options=_fast_options(), progress=False)
+    assert [r["status"] for r in res.records] == ["done"]
+    with xr.open_datatree(tmp_path / "out" / "records" / "a.nc", engine="h5netcdf") as tree:
+        assert tree.attrs["time_zone"] == "Europe/Berlin"
+        assert tree.attrs["start"] == "2026-03-02T22:00:00+01:00"  # CET in March before DST
