@@ -120,6 +120,10 @@ def _warm():
     import tfhrv.cohort.run  # noqa: F401
     import tfhrv.viz.figures  # noqa: F401
     import tfhrv.viz.report  # noqa: F401
+    yield
+    import shutil
+
+    shutil.rmtree(WORK, ignore_errors=True)
 
 
 def _check_bounded(fn, size: int):
