@@ -234,8 +234,18 @@ def test_killed_run_resumed_on_local_cluster(sequential, study_dir, tmp_path):
     assert 1 <= len(first) < 3, log.read_text()  # killed midway
     # a write cut short leaves a temporary file like this one; it must not count
     (out / "records" / ".s2.nc.deadbeef.part").write_bytes(b"half a file")
-    again = run_cohort(study_dir / "manifest.csv", out, workers=2, options=FAST,
-                       progress=False)
+    # with the usual dashboard port taken by another program: no warning may reach the
+    # user (pytest turns warnings into errors), the cluster simply does not use it
+    import socket
+
+    with socket.socket() as holder:
+        try:
+            holder.bind(("127.0.0.1", 8787))
+            holder.listen()
+        except OSError:  # already held by something else: the condition holds anyway
+            pass
+        again = run_cohort(study_dir / "manifest.csv", out, workers=2, options=FAST,
+                           progress=False)
     status = {r["record"]: r["status"] for r in again.records}
     assert {r for r, s in status.items() if s == "skipped"} == first, again.records
     assert {r for r, s in status.items() if s == "done"} == {"s0", "s1", "s2"} - first

@@ -18,6 +18,7 @@ import sys  # noqa: E402
 import time  # noqa: E402
 import warnings  # noqa: E402
 from collections.abc import Sequence  # noqa: E402
+from functools import partial  # noqa: E402
 
 from tfhrv.core.caution import CAUTION  # noqa: E402
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError, TfhrvWarning  # noqa: E402
@@ -44,6 +45,11 @@ def _add_reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--start", help="wall-clock start: ISO 8601 timestamp or time of day HH:MM[:SS]"
                    " (overrides the file)")
     g.add_argument("--record-id", help="record identifier (default: from the file)")
+    g.add_argument("--tz", help="IANA time zone of the clock times, e.g. Europe/Berlin: clock "
+                   "hours are then local civil time through daylight-saving changes (needs a "
+                   "start with a date)")
+    g.add_argument("--max-span-days", type=float, default=31.0,
+                   help="longest accepted recording span, days (31; common practice)")
 
 
 #: tfhrv.calibration.calibrate.MODELS, spelled out so that --help needs no numpy import
@@ -142,15 +148,68 @@ def _read(args: argparse.Namespace):
         args.recording, fmt=args.fmt, units=args.units, delimiter=delimiter,
         decimal=args.decimal, time_column=args.time_column, clock_column=args.clock_column,
         interval_column=args.interval_column, label_column=args.label_column,
-        start=args.start, record_id=args.record_id,
+        start=args.start, record_id=args.record_id, tz=args.tz,
+        max_span_s=args.max_span_days * 86400.0,
     )
+
+
+def _clean(rec, args: argparse.Namespace):
+    from tfhrv.signal.clean import CleanOptions, clean
+
+    days = getattr(args, "max_span_days", None) or 31.0  # demo has no reader options
+    return clean(rec, options=CleanOptions(max_span_s=days * 86400.0))
+
+
+def _finite(v) -> bool:
+    return v is not None and v == v and abs(v) != float("inf")
+
+
+#: option -> (test, what it must be); every numeric option is checked here, before any
+#: work starts, so that NaN, infinities and out-of-range values never reach the library.
+_OPTION_RULES = {
+    "max_gap": (lambda v: _finite(v) and v > 0, "a number > 0"),
+    "min_coverage": (lambda v: _finite(v) and 0 <= v <= 100, "a percentage from 0 to 100"),
+    "max_ectopic": (lambda v: _finite(v) and 0 <= v <= 100, "a percentage from 0 to 100"),
+    "max_nonstationary": (lambda v: _finite(v) and 0 <= v <= 100,
+                          "a percentage from 0 to 100"),
+    "short_window": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
+    "short_hop": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
+    "long_window": (lambda v: _finite(v) and 0 < v <= 168, "hours, > 0 and <= 168"),
+    "long_hop": (lambda v: _finite(v) and 0 < v <= 168, "hours, > 0 and <= 168"),
+    "vanishing_moments": (lambda v: 1 <= v <= 10, "an integer from 1 to 10"),
+    "rest_hours": (lambda v: _finite(v) and 0 < v < 24, "hours, > 0 and < 24"),
+    "night": (lambda v: all(_finite(x) and 0 <= x <= 24 for x in v), "two hours from 0 to 24"),
+    "day": (lambda v: all(_finite(x) and 0 <= x <= 24 for x in v), "two hours from 0 to 24"),
+    "max_span_days": (lambda v: _finite(v) and 0 < v <= 3660, "days, > 0 and <= 3660"),
+    "workers": (lambda v: v >= 0, "an integer >= 0"),
+    "days": (lambda v: _finite(v) and 0 < v <= 31, "days, > 0 and <= 31"),
+}
+
+
+def check_options(args: argparse.Namespace) -> None:
+    """Refuse every bad option value in one place, before any file is read or written."""
+    for dest, (ok, what) in _OPTION_RULES.items():
+        value = getattr(args, dest, None)
+        if value is not None and not ok(value):
+            flag = "--" + dest.replace("_", "-")
+            raise ValueError(f"{flag} must be {what}, got {value!r}")
+    if getattr(args, "tz", None) is not None:
+        from tfhrv.signal.clock import load_zone
+
+        load_zone(args.tz)
+
+
+def _protect(outputs, inputs) -> None:
+    """Refuse an output that is an input (or another output), before any work starts."""
+    from tfhrv.core.files import check_outputs
+
+    check_outputs(outputs, inputs)
 
 
 def _cmd_inspect(args: argparse.Namespace) -> int:
     from tfhrv.analysis.inspection import format_inspection, inspect_record, inspection_dict
     from tfhrv.analysis.policy import explain_table
     from tfhrv.core.jsonsafe import dumps_strict
-    from tfhrv.signal.clean import clean
 
     if args.explain:
         print(explain_table())
@@ -163,8 +222,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     progress.stage(f"read {args.recording}")
     rec = _read(args)
     progress.stage("clean")
-    cleaned = clean(rec)
-    ins = inspect_record(cleaned, options=_scan_options(args), progress=progress)
+    ins = inspect_record(_clean(rec, args), options=_scan_options(args), progress=progress)
     if args.json:
         print(dumps_strict(inspection_dict(ins), indent=2))
     else:
@@ -202,13 +260,12 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
         raise ValueError(f"{path}: the output folder does not exist")
 
 
-def _scan_recording(rec, options, progress, *, what: str = ""):
+def _scan_recording(rec, options, progress, *, args: argparse.Namespace, what: str = ""):
     """clean -> scan, with stages; a record too short for any window says so, naming it."""
     from tfhrv.dataset.build import scan
-    from tfhrv.signal.clean import clean
 
     progress.stage("clean")
-    cleaned = clean(rec)
+    cleaned = _clean(rec, args)
     _check_long_enough(cleaned, options, what=what)
     return scan(cleaned, options=options, progress=progress)
 
@@ -234,11 +291,12 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     from tfhrv.dataset.netcdf import write_tree
 
     _check_output(args.output, (".nc",))
+    _protect([("output", args.output)], [("recording", args.recording)])
     options = _scan_options(args)
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
-    tree = _scan_recording(rec, options, progress, what="a scan")
+    tree = _scan_recording(rec, options, progress, args=args, what="a scan")
     progress.stage(f"write {args.output}")
     write_tree(tree, args.output)
     rec_ds = tree["/record"]
@@ -254,11 +312,15 @@ def _cmd_circadian(args: argparse.Namespace) -> int:
     import xarray as xr
 
     from tfhrv.circadian.days import circadian_dataset, circadian_table, format_circadian
-    from tfhrv.dataset.netcdf import atomic_write, open_tree, write_tree
+    from tfhrv.core.files import OutputSet
+    from tfhrv.dataset.netcdf import open_tree, write_tree
 
     path = Path(args.scan_file)
     if not path.is_file():
         raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    csv_path = Path(args.csv) if args.csv else path.with_suffix(".circadian.csv")
+    _protect([("--csv table", csv_path)], [("scan file", path), ("--sleep-log", args.sleep_log)])
+    _protect([("updated scan file", path)], [("--sleep-log", args.sleep_log)])
     progress = _progress(args)
     progress.stage(f"read {path}")
     tree = open_tree(path)
@@ -270,12 +332,12 @@ def _cmd_circadian(args: argparse.Namespace) -> int:
     except InsufficientDataError as exc:
         raise InsufficientDataError(f"{path}: the record is too short for the circadian "
                                     f"analysis: {exc}") from None
-    csv_path = Path(args.csv) if args.csv else path.with_suffix(".circadian.csv")
     progress.stage(f"write {csv_path} and the /circadian group of {path}")
-    atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
     tree["/circadian"] = xr.DataTree(circadian_dataset(table, opt, tree=tree, sleep_log=log))
     tree.attrs["history"] = tree.attrs.get("history", "") + "\ntfhrv circadian"
-    write_tree(tree, path)
+    with OutputSet() as out:  # both or neither
+        out.add(csv_path, lambda tmp: table.to_csv(tmp, index=False, float_format="%.6g"))
+        write_tree(tree, path, outputs=out)
     print(format_circadian(table))
     print(f"\nwrote {csv_path} and the /circadian group of {path}")
     return 0
@@ -293,14 +355,15 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
     return _cmd_circadian(args)
 
 
-def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None):
+def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None, *,
+              args: argparse.Namespace):
     """clean -> scan -> circadian: the tree with its /circadian group, and the table."""
     import xarray as xr
 
     from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
     from tfhrv.core.errors import InsufficientDataError
 
-    tree = _scan_recording(rec, options, progress, what="a report")
+    tree = _scan_recording(rec, options, progress, args=args, what="a report")
     copt = circadian_options or CircadianOptions()
     progress.stage("day/night contrasts (block bootstrap) and cosinor")
     try:
@@ -344,35 +407,47 @@ def _cmd_figures(args: argparse.Namespace) -> int:
     path = Path(args.scan_file)
     if not path.is_file():
         raise ValueError(f"{path}: no such scan file (make one with tfhrv scan)")
+    from tfhrv.core.files import OutputSet
+    from tfhrv.viz.figures import FIGURES
+
     out = Path(args.directory)
     if out.exists() and not out.is_dir():
         raise ValueError(f"{out}: exists and is not a folder")
+    _protect([(f"figure {n}.{f}", out / f"{n}.{f}") for n in FIGURES for f in args.formats],
+             [("scan file", path)])
     progress = _progress(args)
     progress.stage(f"read {path}")
     tree = open_tree(path)
-    written = save_all(tree, out, formats=tuple(args.formats), dpi=args.dpi,
-                       progress=progress,
-                       **({"alpha_range": tuple(args.alpha_range)} if args.alpha_range else {}))
+    with OutputSet() as staged:
+        written = save_all(tree, out, formats=tuple(args.formats), dpi=args.dpi,
+                           progress=progress, outputs=staged,
+                           **({"alpha_range": tuple(args.alpha_range)} if args.alpha_range
+                              else {}))
     print(f"wrote {len(written)} files to {out}")
     return 0
 
 
 def _cmd_report(args: argparse.Namespace) -> int:
+    from tfhrv.core.files import OutputSet
     from tfhrv.dataset.netcdf import write_tree
     from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
+    if args.scan_output:
+        _check_output(args.scan_output, (".nc",))
+    _protect([("report", args.output), ("--scan-output", args.scan_output)],
+             [("recording", args.recording)])
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
     tree, table = _pipeline(rec, _scan_options(args), progress, _circadian_options(args),
-                            _sleep_log(args, rec.record_id))
-    path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
-                        progress=progress, started=_STARTED)
-    if args.scan_output:
-        _check_output(args.scan_output, (".nc",))
-        progress.stage(f"write {args.scan_output}")
-        write_tree(tree, args.scan_output)
+                            _sleep_log(args, rec.record_id), args=args)
+    with OutputSet() as out:  # the report and the scan file, or neither
+        path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
+                            progress=progress, started=_STARTED, outputs=out)
+        if args.scan_output:
+            progress.stage(f"write {args.scan_output}")
+            write_tree(tree, args.scan_output, outputs=out)
     print(f"wrote {path}: FFT-slope verdict {tree['/record'].attrs['verdict']}")
     return 0
 
@@ -382,7 +457,8 @@ def _cmd_demo(args: argparse.Namespace) -> int:
 
     import tfhrv
     from tfhrv.analysis.pipeline import ScanOptions
-    from tfhrv.dataset.netcdf import atomic_write, write_tree
+    from tfhrv.core.files import OutputSet
+    from tfhrv.dataset.netcdf import write_tree
     from tfhrv.io.readers import read_recording
     from tfhrv.viz.report import write_report
 
@@ -396,17 +472,19 @@ def _cmd_demo(args: argparse.Namespace) -> int:
           "study)")
     progress = _progress(args)
     progress.stage(f"read {demo.name}")
-    rec = read_recording(demo)
+    rec = read_recording(demo, tz=args.tz)
     tree, table = _pipeline(rec, ScanOptions(), progress, _circadian_options(args),
-                            _sleep_log(args, rec.record_id))
+                            _sleep_log(args, rec.record_id), args=args)
     progress.stage(f"write {out / 'sw01_day_worker.nc'}")
-    write_tree(tree, out / "sw01_day_worker.nc")
     atomic_csv = out / "sw01_day_worker.circadian.csv"
-    if table is not None:
-        atomic_write(atomic_csv, lambda tmp: table.to_csv(tmp, index=False,
-                                                          float_format="%.6g"))
-    report = write_report(tree, out / "sw01_day_worker_report.html", circadian_table=table,
-                          dpi=args.dpi, progress=progress, started=_STARTED)
+    with OutputSet() as staged:  # all three or none
+        write_tree(tree, out / "sw01_day_worker.nc", outputs=staged)
+        if table is not None:
+            staged.add(atomic_csv, lambda tmp: table.to_csv(tmp, index=False,
+                                                            float_format="%.6g"))
+        report = write_report(tree, out / "sw01_day_worker_report.html",
+                              circadian_table=table, dpi=args.dpi, progress=progress,
+                              started=_STARTED, outputs=staged)
     print(f"verdict: {tree['/record'].attrs['verdict']}")
     print(f"wrote {out / 'sw01_day_worker.nc'} and {atomic_csv}")
     print(f"report: {report.resolve()}")
@@ -550,6 +628,8 @@ def build_parser() -> argparse.ArgumentParser:
                        "path. " + CAUTION)
     p.add_argument("-o", "--output-dir", default="demo_output",
                    help="output folder (demo_output)")
+    p.add_argument("--tz", help="IANA time zone to read the demo's clock times in, e.g. "
+                   "Europe/Berlin (default: naive local clock time)")
     _add_dpi_option(p)
     _add_circadian_options(p)
     p.set_defaults(func=_cmd_demo)
@@ -592,20 +672,28 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``tfhrv`` command."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    source = None  # the user's file, named in every error once the options are checked
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("default", TfhrvWarning)
-            warnings.showwarning = _show_warning
+            warnings.showwarning = partial(_show_warning, debug=args.debug)
+            check_options(args)
+            source = next((str(v) for k in ("recording", "scan_file", "manifest")
+                           if (v := getattr(args, k, None)) is not None), None)
             status = int(args.func(args) or 0)
             sys.stdout.flush()  # a closed pipe shows here, inside the handler below
             return status
-    except BrokenPipeError:  # output piped into head & co.: stop quietly
+    except BrokenPipeError:  # output piped into head & co. (an OSError: caught first)
         _silence_stdout()
         return 0
-    except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError) as exc:
+    except (RecordFormatError, InsufficientDataError, ValueError, TypeError, OSError,
+            MemoryError) as exc:
         if args.debug:
             raise
-        print(f"tfhrv: error: {exc}", file=sys.stderr)
+        text = _one_line(exc)
+        if source is not None and not isinstance(exc, OSError) and source not in text:
+            text = f"{source}: {text}"
+        print(f"tfhrv: error: {text}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("tfhrv: interrupted", file=sys.stderr)
@@ -622,8 +710,27 @@ def _silence_stdout() -> None:
         pass
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"tfhrv: warning: {message}", file=sys.stderr)
+def _one_line(exc: BaseException, limit: int = 500) -> str:
+    """The error as one line of readable length."""
+    if isinstance(exc, MemoryError):
+        return "out of memory"
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= limit else text[:limit] + "..."
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None, *,
+                  debug=False) -> None:
+    """Our warnings go to the terminal; a library's go to the ``tfhrv`` log (shown with
+    --debug): they concern our code, not the user's data."""
+    if issubclass(category, TfhrvWarning):
+        print(f"tfhrv: warning: {_one_line(message)}", file=sys.stderr)
+        return
+    import logging
+
+    logging.getLogger("tfhrv").debug("%s: %s (%s:%s)", category.__name__, message, filename,
+                                     lineno)
+    if debug:
+        print(f"tfhrv: debug: library warning {category.__name__}: {message}", file=sys.stderr)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -63,6 +63,7 @@ def _fit_dict(fit) -> dict | None:
         return None
     return {"value": fit.exponent, "ci": list(fit.ci), "se": fit.se,
             "slope": fit.slope_exponent, "kind": fit.kind, "n_obs": fit.n_obs,
+            "withheld": fit.withheld,
             "fit_range": list(fit.fit_range), "fit_units": fit.fit_units}
 
 
@@ -113,6 +114,7 @@ def _inspection_fields(ins: Inspection, rec, start, v) -> dict:
         "verdict": v.verdict,
         "verdict_detail": v.as_dict(),
         "start": start,
+        "time_zone": (rec.clock.zone or "UTC offsets of the file") if rec.clock else None,
         "start_kind": ("timestamp" if isinstance(rec.start, dt.datetime)
                        else "time-of-day" if rec.start is not None else "unknown"),
         "quality": cleaned.quality.as_dict(),
@@ -159,6 +161,8 @@ def _span(s: float) -> str:
 def _exp(fit, name: str) -> str:
     if fit is None:
         return f"{name} n/a"
+    if fit.withheld:
+        return f"{name} none ({fit.withheld.split(':')[0]})"
     from tfhrv.calibration.calibrate import interval_text
 
     ci = interval_text(*fit.ci)
@@ -215,9 +219,14 @@ def format_inspection(ins: Inspection, /) -> str:
                                              _exp(f["alpha2"], "alpha2"),
                                              _exp(f["alpha_long"], "alpha long")]))
     lines.append(" " * 14 + "(bias-corrected values with calibrated 95 % intervals)")
+    for key, label in (("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"),
+                       ("alpha1", "alpha1"), ("alpha2", "alpha2"), ("alpha_long", "alpha long")):
+        if f[key] is not None and f[key].withheld:
+            lines.append(f"  no exponent {label}: {f[key].withheld}")
     slopes = [f"{label} {f[key].slope_exponent:.2f}" for key, label in (
         ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
-        ("alpha2", "alpha2"), ("alpha_long", "alpha long")) if f[key] is not None]
+        ("alpha2", "alpha2"), ("alpha_long", "alpha long"))
+        if f[key] is not None and not f[key].withheld]
     if slopes:
         lines.append("slopes        " + "   ".join(slopes))
         lines.append(" " * 14 + "(fitted slopes before calibration: the values published "

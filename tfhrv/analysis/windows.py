@@ -51,6 +51,10 @@ class TierSpec:
             raise ValueError(f"scale must be one of ('short', 'long'), got {self.scale!r}")
 
 
+#: Most windows one tier may cut (a 31-day record at the default 5-min hop has 8 928): an
+#: explicit limit so that a tiny hop cannot make the work grow without bound.
+MAX_WINDOWS = 100_000
+
 SHORT = TierSpec(300.0, 300.0, "short")
 LONG = TierSpec(14400.0, 3600.0, "long", min_beats=1024)
 
@@ -77,7 +81,11 @@ def window_starts(duration_s: float, start: dt.datetime | dt.time | None, tier: 
     last = duration_s - tier.window_s
     if last < offset:
         return np.array([0.0])
-    return offset + tier.hop_s * np.arange(int(np.floor((last - offset) / tier.hop_s)) + 1)
+    n = int(np.floor((last - offset) / tier.hop_s)) + 1
+    if n > MAX_WINDOWS:
+        raise ValueError(f"a hop of {tier.hop_s:g} s over {duration_s:g} s gives {n} windows "
+                         f"(at most {MAX_WINDOWS}); use a longer hop")
+    return offset + tier.hop_s * np.arange(n)
 
 
 @dataclass(frozen=True, slots=True)

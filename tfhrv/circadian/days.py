@@ -94,24 +94,37 @@ def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetim
     if not p.is_file():
         raise RecordFormatError(str(p), "no such sleep-log file")
     out = []
-    with p.open(newline="") as fh:
-        reader = csv.DictReader(fh)
-        missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
-        if missing:
-            raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
-                                    line=1)
-        for i, row in enumerate(reader, start=2):
-            if row["record"].strip() != record_id:
-                continue
-            try:
-                a = dt.datetime.fromisoformat(row["rest_start"].strip())
-                b = dt.datetime.fromisoformat(row["rest_end"].strip())
-            except ValueError:
-                raise RecordFormatError(str(p), "rest_start/rest_end must be ISO 8601 "
-                                        "timestamps", line=i) from None
-            if b <= a:
-                raise RecordFormatError(str(p), "rest_end is not after rest_start", line=i)
-            out.append((a, b))
+    try:
+        with p.open(newline="", encoding="utf-8-sig") as fh:
+            reader = csv.DictReader(fh)
+            missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
+            if missing:
+                raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
+                                        line=1)
+            for row in reader:
+                i = reader.line_num
+                if None in row or any(v is None for v in row.values()):
+                    raise RecordFormatError(str(p), "row has a different number of fields "
+                                            "than the header", line=i)
+                if row["record"].strip() != record_id:
+                    continue
+                try:
+                    a = dt.datetime.fromisoformat(row["rest_start"].strip())
+                    b = dt.datetime.fromisoformat(row["rest_end"].strip())
+                except ValueError:
+                    raise RecordFormatError(str(p), "rest_start/rest_end must be ISO 8601 "
+                                            "timestamps", line=i) from None
+                if (a.tzinfo is None) != (b.tzinfo is None):
+                    raise RecordFormatError(str(p), "rest_start and rest_end mix a UTC "
+                                            "offset and a naive time", line=i)
+                if b <= a:
+                    raise RecordFormatError(str(p), "rest_end is not after rest_start",
+                                            line=i)
+                out.append((a, b))
+    except UnicodeDecodeError:
+        raise RecordFormatError(str(p), "is not a UTF-8 text (CSV) file") from None
+    except csv.Error as exc:
+        raise RecordFormatError(str(p), f"is not a readable CSV file ({exc})") from None
     if not out:
         raise RecordFormatError(str(p), f"no rest period for record {record_id!r}")
     return out
@@ -144,8 +157,8 @@ def _periods(tree: xr.DataTree, tier: str, opt: CircadianOptions, sleep_log):
         start = dt.datetime.fromisoformat(root["start"])
         night = np.zeros(elapsed_h.size, dtype=bool)
         for a, b in sleep_log:
-            ha = (a - start).total_seconds() / 3600
-            hb = (b - start).total_seconds() / 3600
+            ha = _hours_between(start, a, root.get("time_zone", ""))
+            hb = _hours_between(start, b, root.get("time_zone", ""))
             night |= (elapsed_h >= ha) & (elapsed_h < hb)
         clock_h = ds["clock_hour"].values
         day = ~night & _in_window(clock_h, opt.day_hours)
@@ -185,20 +198,49 @@ def _periods(tree: xr.DataTree, tier: str, opt: CircadianOptions, sleep_log):
                 day &= (elapsed_h < r.start_hours - 4) | (elapsed_h >= r.end_hours + 4)
         source = "inferred rest period"
     day_index = np.floor(elapsed_h / 24.0).astype(int)
-    if "clock_hour" in ds.coords:
-        # days run noon to noon so that each holds a whole night
-        clock0 = float((ds["clock_hour"].values[0] - elapsed_h[0]) % 24)
-        day_index = np.floor((elapsed_h + clock0 - 12.0) / 24.0).astype(int)
+    if "clock_hour" in ds.coords and elapsed_h.size:
+        # days run noon to noon (local civil time) so that each holds a whole night
+        day_index = np.floor((_local_hours(ds) - 12.0) / 24.0).astype(int)
         day_index -= day_index.min()
     return night, day & ~night, day_index, source
+
+
+def _hours_between(start: dt.datetime, t: dt.datetime, zone: str) -> float:
+    """Hours from the record start to a sleep-log time; a naive time is read in the
+    record's time zone (or at the start's UTC offset) when the start carries one."""
+    if (start.tzinfo is None) == (t.tzinfo is None):
+        if start.tzinfo is None:
+            return (t - start).total_seconds() / 3600
+        return (t.astimezone(dt.UTC) - start.astimezone(dt.UTC)).total_seconds() / 3600
+    if start.tzinfo is not None:
+        from tfhrv.signal.clock import load_zone, localize
+
+        try:
+            t = localize(t, load_zone(zone))
+        except ValueError:
+            t = t.replace(tzinfo=start.tzinfo)
+        return (t.astimezone(dt.UTC) - start.astimezone(dt.UTC)).total_seconds() / 3600
+    raise ValueError("the sleep log gives UTC offsets but the record's start has none; give "
+                     "the record's time zone (--tz) or write the sleep log in local time")
+
+
+def _local_hours(ds: xr.Dataset) -> np.ndarray:
+    """Local civil clock time in hours since the midnight before the first window,
+    continuous (not folded on 24 h): elapsed time plus the clock's own jumps, read from
+    ``clock_hour`` (which follows daylight-saving changes)."""
+    elapsed_h = ds["elapsed"].values / 3600.0
+    clock = ds["clock_hour"].values
+    clock0 = float((clock[0] - elapsed_h[0]) % 24)
+    naive = clock0 + elapsed_h
+    jump = (clock - naive + 12.0) % 24.0 - 12.0  # the offset change, in (-12, 12] h
+    return naive + jump
 
 
 def _cosinor_time(tree: xr.DataTree, tier: str) -> tuple[np.ndarray, str]:
     ds = tree[f"/{tier}"].to_dataset()
     elapsed_h = ds["elapsed"].values / 3600.0
-    if "clock_hour" in ds.coords:
-        clock0 = float((ds["clock_hour"].values[0] - elapsed_h[0]) % 24)
-        return clock0 + elapsed_h, "clock"
+    if "clock_hour" in ds.coords and elapsed_h.size:
+        return _local_hours(ds), "clock"
     return elapsed_h, "hours from start"
 
 

@@ -8,9 +8,6 @@ from __future__ import annotations
 
 import itertools
 import json
-import os
-import shutil
-import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -274,19 +271,20 @@ def short_exponents_dataset(records: Sequence[str], groups: Sequence[str],
     return ds
 
 
-def write_zarr(ds: xr.Dataset, dest: Path) -> Path:
-    """Write ``ds`` to the Zarr store ``dest`` through a temporary folder renamed into place.
+def write_zarr(ds: xr.Dataset, dest: Path, *, outputs=None) -> Path:
+    """Write ``ds`` to the Zarr store ``dest`` through a temporary folder renamed into place
+    (staged in ``outputs``, a :class:`tfhrv.core.files.OutputSet`, when given).
 
     Zarr format 2 with consolidated metadata: plain ``xarray.open_zarr(dest)`` opens it
     without warnings, and format 2 is read by every Zarr implementation.
     """
-    tmp = Path(tempfile.mkdtemp(prefix=f".{dest.name}.", suffix=".part", dir=dest.parent))
-    try:
+    from tfhrv.core.files import OutputSet
+
+    def write(tmp):
         ds.to_zarr(tmp, mode="w", consolidated=True, zarr_format=2)
-        if dest.exists():
-            shutil.rmtree(dest)
-        os.replace(tmp, dest)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
+
+    if outputs is not None:
+        return outputs.add(dest, write, directory=True)
+    with OutputSet() as out:
+        out.add(dest, write, directory=True)
     return dest

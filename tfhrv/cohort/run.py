@@ -8,6 +8,9 @@ and writes under ``OUTDIR``:
 ``records/<record>.nc``     one DataTree per record (``/nn /short /long /record /circadian``),
                             written atomically; root attributes ``source_sha256`` and
                             ``parameter_hash`` make a rerun skip it when nothing changed
+                            (``<record>`` is the record id when it is a short plain name,
+                            else a safe stem plus a hash: :func:`tfhrv.core.files.safe_file_stem`)
+``.checksums/<record>.json`` SHA-256 of the record's outputs, written with them
 ``reports/<record>.html``   the report of each record (only with ``report=True``)
 ``study.parquet``/``.csv``  one row per record: manifest columns, quality, verdict,
                             whole-record exponents with intervals, day/night values and
@@ -26,21 +29,25 @@ Manifest
 A CSV file with a header.  Columns (names are case-sensitive):
 
 - ``path`` (required): the recording file, relative to the manifest's folder or absolute;
-- ``record``: record identifier, unique, usable as a file name (default: the file stem);
+- ``record``: record identifier, unique, any text (default: the file stem);
 - ``group``: study group (default: empty);
 - ``start`` or ``start_time_of_day``: clock start, an ISO 8601 timestamp or ``HH:MM[:SS]``
   (default: the file's own, if any);
 - ``sleep_log``: a sleep-log CSV (``record,rest_start,rest_end``) for day/night;
+- ``tz``: IANA time zone of the record's naive clock times (e.g. ``Europe/Berlin``);
 - any other column is carried through to the study table (numbers stay numbers).
 
 Instead of a manifest, a folder or a glob pattern of recording files can be given (record
-id = file stem, no group).  Every bad row (missing ``path`` column, empty path, missing
-file, duplicate record id, bad start, missing sleep log) is reported with its line before
-any work starts.  ``docs/manifest_example.csv`` is an example.
+id = file stem, no group).  Every bad row (missing ``path`` column, a column named twice,
+more fields than the header, empty path, missing file, duplicate record id, bad start,
+unknown time zone, missing or unreadable sleep log, no rest period for the record) is
+reported with its line before any work starts.  ``docs/manifest_example.csv`` is an example.
 
-Resume: a record is skipped when its ``.nc`` exists with the input file's current SHA-256
-and the same parameter hash (SHA-256 of the JSON of every option, the record's start,
-sleep log and the tfhrv version); its study row is then read from the root attribute
+Resume: a record is skipped when its ``.nc`` (and report) match the SHA-256 stored in
+``.checksums`` when they were written (a damaged file of the same size is redone), its
+root attributes carry the input file's current SHA-256 and the same parameter hash
+(SHA-256 of the JSON of every option, the record's start, time zone, sleep log and the
+tfhrv version); its study row is then read from the root attribute
 ``cohort_summary`` (JSON) instead of the whole file.  Output files are only ever renamed
 into place, so a killed run leaves no partial output; leftover ``*.part`` files are
 removed on start, and a lock file keeps two runs out of the same ``OUTDIR``.  Failures
@@ -88,11 +95,13 @@ from tfhrv.cohort.outputs import (
     write_zarr,
 )
 from tfhrv.core.errors import RecordFormatError
+from tfhrv.core.files import OutputError, OutputSet, safe_file_stem, short_text
 from tfhrv.core.progress import SILENT, Progress, TextProgress
 from tfhrv.dataset.build import scan
-from tfhrv.dataset.netcdf import atomic_write, file_sha256, write_tree
+from tfhrv.dataset.netcdf import file_sha256, netcdf_bytes, write_bytes
 from tfhrv.io.readers import parse_start, read_recording
 from tfhrv.signal.clean import CleanOptions, clean
+from tfhrv.signal.clock import load_zone
 from tfhrv.viz.comparison import plot_comparison
 
 __all__ = [
@@ -154,13 +163,21 @@ class ManifestEntry:
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
     path_text: str = ""
+    tz: str | None = None
+
+    @property
+    def stem(self) -> str:
+        """File-name stem of the record's outputs (safe for any record id)."""
+        return safe_file_stem(self.record)
 
 
 def _bad_record_id(rid: str) -> str | None:
+    """Any non-empty id is accepted: output names go through
+    :func:`tfhrv.core.files.safe_file_stem`."""
     if not rid:
         return "empty record id"
-    if rid in (".", "..") or any(c in rid for c in ("/", "\\", "\x00", os.sep)):
-        return f"record id {rid!r} cannot be used as a file name"
+    if any(ord(c) < 32 or c == "\x7f" for c in rid):
+        return f"record id {short_text(rid)} holds control characters"
     return None
 
 
@@ -227,7 +244,18 @@ def read_manifest(source: str | Path, /) -> tuple[ManifestEntry, ...]:
 
 
 def _read_manifest_csv(src: Path) -> tuple[ManifestEntry, ...]:
+    try:
+        return _read_manifest_rows(src)
+    except UnicodeDecodeError:
+        raise RecordFormatError(str(src), "is not a UTF-8 text (CSV) manifest") from None
+    except csv.Error as exc:
+        raise RecordFormatError(str(src), f"is not a readable CSV manifest ({exc})") from None
+
+
+def _read_manifest_rows(src: Path) -> tuple[ManifestEntry, ...]:
     name, base = str(src), src.resolve().parent
+    if b"\x00" in src.read_bytes()[:65536]:
+        raise RecordFormatError(name, "holds binary data (NUL bytes), not a CSV manifest")
     with src.open(newline="", encoding="utf-8-sig") as fh:
         reader = csv.DictReader(fh)
         header = [h.strip() for h in (reader.fieldnames or [])]
@@ -237,9 +265,16 @@ def _read_manifest_csv(src: Path) -> tuple[ManifestEntry, ...]:
         problems: list[tuple[int, str]] = []
         entries: list[ManifestEntry] = []
         first_line: dict[str, int] = {}
-        own = {"path", "record", "group", "start", "start_time_of_day", "sleep_log"}
+        own = {"path", "record", "group", "start", "start_time_of_day", "sleep_log", "tz"}
+        if len(set(header)) != len(header):
+            raise ManifestError(name, [(1, "a column name appears twice in the header")])
+        stems: dict[str, str] = {}
         for row in reader:
             line = reader.line_num
+            if None in row:  # DictReader's key for fields beyond the header
+                problems.append((line, f"{len(header) + len(row[None])} fields but the header "
+                                 f"has {len(header)}"))
+                continue
             cells = {k: (v or "").strip() for k, v in row.items() if k is not None}
             if not any(cells.values()):
                 continue
@@ -258,6 +293,11 @@ def _read_manifest_csv(src: Path) -> tuple[ManifestEntry, ...]:
                                  f"{first_line[rid]})"))
             else:
                 first_line[rid] = line
+                stem = safe_file_stem(rid)
+                if stem.lower() in stems:
+                    problems.append((line, f"record ids {short_text(stems[stem.lower()])} and "
+                                     f"{short_text(rid)} give the same output file name"))
+                stems[stem.lower()] = rid
             starts = [cells[c] for c in ("start", "start_time_of_day") if cells.get(c)]
             if len(starts) > 1:
                 problems.append((line, "both start and start_time_of_day are given"))
@@ -266,15 +306,26 @@ def _read_manifest_csv(src: Path) -> tuple[ManifestEntry, ...]:
                     parse_start(starts[0])
                 except ValueError as exc:
                     problems.append((line, str(exc)))
+            zone = cells.get("tz", "") or None
+            if zone is not None:
+                try:
+                    load_zone(zone)
+                except ValueError as exc:
+                    problems.append((line, str(exc)))
             log = cells.get("sleep_log", "")
             log_path = (base / log).resolve() if log else None
             if log and not log_path.is_file():
-                problems.append((line, f"no such sleep-log file {log!r}"))
+                problems.append((line, f"no such sleep-log file {short_text(log)}"))
+            elif log:  # its content, before any work starts
+                try:
+                    read_sleep_log(log_path, rid)
+                except RecordFormatError as exc:
+                    problems.append((line, f"sleep log: {exc}"))
             if len(problems) == bad:
                 extra = tuple((k, v) for k, v in cells.items() if k not in own)
                 entries.append(ManifestEntry(
                     rid, path, cells.get("group", ""), starts[0] if starts else None,
-                    log_path, extra, line, text))
+                    log_path, extra, line, text, zone))
     if problems:
         raise ManifestError(name, problems)
     if not entries:
@@ -348,7 +399,7 @@ def parameter_hash(options: CohortOptions, entry: ManifestEntry, /) -> str:
     blob = {"tfhrv_version": __version__, "calibration_sha256": table_sha256(),
             "clean": asdict(options.clean),
             "scan": asdict(options.scan), "circadian": asdict(options.circadian),
-            "record": entry.record, "start": entry.start,
+            "record": entry.record, "start": entry.start, "tz": entry.tz,
             "sleep_log_sha256": file_sha256(entry.sleep_log) if entry.sleep_log else None}
     text = json.dumps(blob, sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()
@@ -368,12 +419,13 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
         column of that name.
     """
     t0 = time.perf_counter()
-    out = Path(outdir) / "records" / f"{entry.record}.nc"
+    out = Path(outdir) / "records" / f"{entry.stem}.nc"
     stage, caught, result = "read", [], None
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            rec = read_recording(entry.path, start=entry.start, record_id=entry.record)
+            rec = read_recording(entry.path, start=entry.start, record_id=entry.record,
+                                 tz=entry.tz, max_span_s=options.clean.max_span_s)
             stage = "clean"
             cleaned = clean(rec, options=options.clean)
             stage = "scan"
@@ -391,13 +443,21 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
             result = {"row": study_row(tree), "profile": _clock_profile(tree)}
             tree.attrs[_SUMMARY_ATTR] = _summary_json(result)
             stage = "write"
-            write_tree(tree, out)
-            if options.report:
-                stage = "report"
-                from tfhrv.viz.report import write_report
+            with OutputSet() as staged:  # the file, its report and their checksums, or none
+                data = _netcdf_bytes(tree)
+                staged.add(out, write_bytes(data))
+                sums = {out.name: hashlib.sha256(data).hexdigest()}
+                if options.report:
+                    stage = "report"
+                    from tfhrv.viz.report import build_report
 
-                write_report(tree, Path(outdir) / "reports" / f"{entry.record}.html",
-                             circadian_table=table)
+                    html = build_report(tree, circadian_table=table).encode("utf-8")
+                    report = Path(outdir) / "reports" / f"{entry.stem}.html"
+                    staged.add(report, write_bytes(html))
+                    sums[f"reports/{report.name}"] = hashlib.sha256(html).hexdigest()
+                stage = "write"
+                staged.add(_checksum_path(Path(outdir), entry),
+                           write_bytes(json.dumps(sums, sort_keys=True).encode()))
     except Exception as exc:  # isolate every failure of one record (reported, not raised)
         return {"record": entry.record, "status": "failed", "stage": stage,
                 "error": f"{type(exc).__name__}: {exc}", "seconds": time.perf_counter() - t0,
@@ -504,9 +564,18 @@ def _cached_summary(outdir: Path, entry: ManifestEntry, param_hash: str, report:
     """
     import h5netcdf
 
-    nc = outdir / "records" / f"{entry.record}.nc"
-    if not nc.is_file() or (report and not (outdir / "reports" / f"{entry.record}.html")
-                            .is_file()):
+    nc = outdir / "records" / f"{entry.stem}.nc"
+    html = outdir / "reports" / f"{entry.stem}.html"
+    if not nc.is_file() or (report and not html.is_file()):
+        return None
+    # the content hashes stored when the files were written (a damaged file of the same
+    # size, or one written by another program, is redone)
+    try:
+        sums = json.loads(_checksum_path(outdir, entry).read_text(encoding="utf-8"))
+        if sums.get(nc.name) != file_sha256(nc) or (
+                report and sums.get(f"reports/{html.name}") != file_sha256(html)):
+            return None
+    except (OSError, ValueError, AttributeError):
         return None
     try:
         with h5netcdf.File(nc, "r") as f:
@@ -565,9 +634,25 @@ def _run_one(entry: ManifestEntry, outdir: str, options: CohortOptions, param_ha
     return res
 
 
+def _netcdf_bytes(tree: xr.DataTree) -> bytes:
+    """:func:`tfhrv.dataset.netcdf.netcdf_bytes` inside a dask worker: xarray takes a
+    distributed write lock named after the target when a distributed client is active,
+    which an in-memory target cannot name; nothing here is chunked, so the local
+    scheduler's lock is the right one."""
+    import dask
+
+    with dask.config.set(scheduler="synchronous"):
+        return netcdf_bytes(tree)
+
+
+def _checksum_path(outdir: Path, entry: ManifestEntry) -> Path:
+    """SHA-256 of a record's outputs, written with them and checked before a skip."""
+    return outdir / ".checksums" / f"{entry.stem}.json"
+
+
 def _clean_partials(outdir: Path) -> int:
     n = 0
-    for folder in (outdir, outdir / "records", outdir / "reports"):
+    for folder in (outdir, outdir / "records", outdir / "reports", outdir / ".checksums"):
         for p in folder.glob("*.part") if folder.is_dir() else ():
             shutil.rmtree(p) if p.is_dir() else p.unlink(missing_ok=True)
             n += 1
@@ -670,8 +755,12 @@ def _execute(todo: list[tuple[ManifestEntry, str]], outdir: Path, options: Cohor
     cluster = None
     if scheduler is None:
         n = min(workers or os.cpu_count() or 1, len(todo))
+        # no dashboard, and the scheduler's small HTTP server on a free local port: with
+        # the default it tried port 8787 and warned when another program held it
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                dashboard_address=None, silence_logs=logging.ERROR,
+                               scheduler_kwargs={"dashboard": False,
+                                                 "dashboard_address": "127.0.0.1:0"},
                                env={"OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
                                     "MKL_NUM_THREADS": "1"})
     client = Client(cluster if cluster is not None else scheduler)
@@ -831,17 +920,32 @@ def run_cohort(manifest: str | Path | Sequence[ManifestEntry], outdir: str | Pat
               "stage": results[e.record]["stage"], "error": results[e.record]["error"]}
              for e in entries if results[e.record]["status"] == "failed"],
             columns=["record", "path", "stage", "error"])
-        atomic_write(out / "study.parquet", lambda tmp: study.to_parquet(tmp, index=False))
-        atomic_write(out / "study.csv", lambda tmp: study.to_csv(tmp, index=False))
-        atomic_write(out / "comparison.csv", lambda tmp: comparison.to_csv(tmp, index=False))
-        atomic_write(out / "failures.csv", lambda tmp: fails.to_csv(tmp, index=False))
-        if plot_comparison(study, comparison, out / "comparison.png",
-                           groups=group_labels(study["group"])) is None:
-            (out / "comparison.png").unlink(missing_ok=True)  # no stale figure
         ok = [e for e in entries if results[e.record].get("row") is not None]
-        write_zarr(short_exponents_dataset([e.record for e in ok], [e.group for e in ok],
-                                            [results[e.record]["profile"] for e in ok]),
-                    out / "short_exponents.zarr")
+        # the tables first, renamed together: on a full disk the study still says what
+        # happened to every record; then the derived outputs, renamed together
+        with OutputSet() as staged:
+            staged.add(out / "failures.csv", lambda tmp: fails.to_csv(tmp, index=False))
+            staged.add(out / "study.csv", lambda tmp: study.to_csv(tmp, index=False))
+            staged.add(out / "comparison.csv",
+                       lambda tmp: comparison.to_csv(tmp, index=False))
+        derived = (out / "study.parquet", out / "comparison.png", out / "short_exponents.zarr")
+        try:
+            with OutputSet() as staged:
+                staged.add(derived[0], lambda tmp: study.to_parquet(tmp, index=False))
+                figure = plot_comparison(study, comparison, derived[1],
+                                         groups=group_labels(study["group"]), outputs=staged)
+                write_zarr(short_exponents_dataset(
+                    [e.record for e in ok], [e.group for e in ok],
+                    [results[e.record]["profile"] for e in ok]), derived[2], outputs=staged)
+        except OSError as exc:
+            for p in derived:  # no stale derived output beside the new tables
+                shutil.rmtree(p, ignore_errors=True) if p.is_dir() else p.unlink(
+                    missing_ok=True)
+            raise OutputError(out, "study.csv, comparison.csv and failures.csv were written, "
+                              f"but not study.parquet, comparison.png and the Zarr store: "
+                              f"{exc}") from None
+        if figure is None:
+            (out / "comparison.png").unlink(missing_ok=True)  # no stale figure
     records = tuple({k: v for k, v in results[e.record].items() if k not in ("row", "profile")}
                     for e in entries)
     return CohortResult(out, records, study, comparison, fails, time.perf_counter() - t0)

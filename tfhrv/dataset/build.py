@@ -54,27 +54,28 @@ def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
     }
 
 
-def _time_coords(group: str, elapsed_s: np.ndarray, start) -> dict:
+def _time_coords(group: str, elapsed_s: np.ndarray, rec) -> dict:
+    start = rec.start
     td = (np.round(elapsed_s * 1e3)).astype("int64").astype("timedelta64[ms]")
     coords = {"elapsed": variable(group, "elapsed", elapsed_s)}
     dims, _, attrs = variable(group, "time", None)
     if isinstance(start, dt.datetime):
         base = np.datetime64(start.replace(tzinfo=None), "ms")
-        coords["time"] = (dims, base + td, {**attrs, "long_name": "window centre (clock time)"})
+        coords["time"] = (dims, base + td, {
+            **attrs, "long_name": "window centre (clock time at the start's UTC offset; "
+                                  "clock_hour is local civil time)"})
     else:
         coords["time"] = (dims, td, {**attrs, "long_name": "window centre (time from start)"})
-    if start is not None:
-        tod = start.time() if isinstance(start, dt.datetime) else start
-        h0 = tod.hour + tod.minute / 60 + tod.second / 3600
-        coords["clock_hour"] = variable(group, "clock_hour", (h0 + elapsed_s / 3600.0) % 24.0)
+    if start is not None:  # local civil time, through daylight-saving changes
+        coords["clock_hour"] = variable(group, "clock_hour", rec.clock_hours(elapsed_s))
     return coords
 
 
-def _tier_dataset(tier: TierAnalysis, start, group: str) -> xr.Dataset:
+def _tier_dataset(tier: TierAnalysis, rec, group: str) -> xr.Dataset:
     data = {}
     for name, val in tier.values.items():
         data[name] = variable(group, name, val.astype(str) if name == "reason" else val)
-    coords = _time_coords(group, tier.centres_s, start)
+    coords = _time_coords(group, tier.centres_s, rec)
     coords.update({
         "band": variable(group, "band", list(BANDS)),
         "band_low_hz": variable(group, "band_low_hz", [TASK_FORCE_BANDS[b][0] for b in BANDS]),
@@ -113,6 +114,7 @@ def _record_dataset(analysis: RecordAnalysis) -> xr.Dataset:
         f = fits[name]
         nan = float("nan")
         data[name] = variable(g, name, float(f.exponent) if f is not None else nan)
+        data[name][2]["withheld"] = f.withheld if f is not None else ""
         data[name + "_se"] = variable(g, name + "_se", float(f.se) if f is not None else nan)
         data[name + "_ci"] = variable(g, name + "_ci", np.asarray(
             f.ci if f is not None else (nan, nan), dtype=np.float64))
@@ -184,10 +186,13 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
     root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
                            else "time-of-day" if rec.start is not None else "unknown")
     root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
+    clock = rec.clock
+    root.attrs["time_zone"] = ("" if clock is None else clock.zone or "UTC offsets of the file")
+    root.attrs["utc_offset_changes"] = json.dumps([] if clock is None else clock.changes())
     return xr.DataTree.from_dict({
         "/": root, "/nn": _nn_dataset(cleaned),
-        "/short": _tier_dataset(analysis.short, rec.start, "/short"),
-        "/long": _tier_dataset(analysis.long, rec.start, "/long"),
+        "/short": _tier_dataset(analysis.short, rec, "/short"),
+        "/long": _tier_dataset(analysis.long, rec, "/long"),
         "/record": _record_dataset(analysis)})
 
 

@@ -1,23 +1,28 @@
 """Writing and reading the per-record DataTree (NetCDF4 with groups), atomically.
 
-The file is written to a temporary name in the destination folder and renamed into
-place only when complete (``os.replace`` is atomic on POSIX), so an error or a kill never
-leaves a half-written file under the final name.
+The file is rendered in memory and written to a temporary name in the destination folder,
+then renamed into place only when complete (``os.replace`` is atomic on POSIX), so an
+error, a full disk or a kill never leaves a half-written file under the final name.
 """
 
 from __future__ import annotations
 
 import hashlib
-import os
-import tempfile
+import io
 from pathlib import Path
 
 import xarray as xr
 
-__all__ = ["atomic_write", "file_sha256", "open_tree", "write_tree"]
+from tfhrv.core.errors import RecordFormatError
+from tfhrv.core.files import atomic_write
+
+__all__ = ["RENAMED_GROUPS", "atomic_write", "file_sha256", "netcdf_bytes", "open_tree",
+           "write_bytes", "write_tree"]
 
 
 _ENGINE = "h5netcdf"
+#: groups renamed since earlier releases: old name -> current name
+RENAMED_GROUPS = {"rhythm": "circadian"}
 
 
 def file_sha256(path: str | Path) -> str:
@@ -29,52 +34,71 @@ def file_sha256(path: str | Path) -> str:
     return h.hexdigest()
 
 
-def atomic_write(path: str | Path, write) -> Path:
-    """Call ``write(tmp_path)`` then rename the temporary file onto ``path``.
+def netcdf_bytes(tree: xr.DataTree, /) -> bytes:
+    """The NetCDF4 file of a DataTree, rendered in memory.
 
-    The temporary file lives in the same folder (same file system) and is removed if
-    ``write`` raises.
+    HDF5 does not recover from a failed write (a full disk or a file size limit ended in
+    a segmentation fault), so the file is built in memory and written with a plain
+    ``write``, whose failure is an ordinary ``OSError``.
     """
-    dest = Path(path)
-    dest.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{dest.name}.", suffix=".part", dir=dest.parent)
-    os.close(fd)
-    try:
-        write(Path(tmp))
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the usual file mode
-        os.replace(tmp, dest)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return dest
+    buf = io.BytesIO()
+    tree.to_netcdf(buf, engine=_ENGINE, mode="w")
+    return buf.getvalue()
 
 
-def write_tree(tree: xr.DataTree, path: str | Path, /) -> Path:
-    """Write a DataTree as NetCDF4 with groups, atomically."""
-    return atomic_write(path, lambda tmp: tree.to_netcdf(tmp, engine=_ENGINE, mode="w"))
+def write_bytes(data: bytes):
+    """A writer for :func:`tfhrv.core.files.atomic_write` that stores ``data``."""
+    def write(tmp: Path) -> None:
+        with Path(tmp).open("wb") as fh:
+            fh.write(data)
+            fh.flush()
+    return write
 
 
-#: groups renamed since earlier releases: old name -> current name
-RENAMED_GROUPS = {"rhythm": "circadian"}
+def write_tree(tree: xr.DataTree, path: str | Path, /, *, outputs=None) -> Path:
+    """Write a DataTree as NetCDF4 with groups, atomically.
+
+    With ``outputs`` (a :class:`tfhrv.core.files.OutputSet`) the file is staged there and
+    renamed with the command's other outputs.
+    """
+    write = write_bytes(netcdf_bytes(tree))
+    if outputs is not None:
+        return outputs.add(path, write)
+    return atomic_write(path, write)
 
 
 def open_tree(path: str | Path, /, *, check: bool = True) -> xr.DataTree:
     """Open a scan file written by :func:`write_tree`, fully loaded into memory.
 
-    With ``check`` (default) the tree is validated against :mod:`tfhrv.dataset.schema`;
-    a file that is not a tfhrv scan file raises :class:`~tfhrv.dataset.schema.SchemaError`
-    naming the file and what is missing.  A group of an older file that has since been
-    renamed (:data:`RENAMED_GROUPS`: the ``/rhythm`` group of tfhrv 0.1 is now
-    ``/circadian``) is returned under its current name, so older scan files keep working.
+    A group of an older file that has since been renamed (:data:`RENAMED_GROUPS`: the
+    ``/rhythm`` group of tfhrv 0.1 is now ``/circadian``) is returned under its current
+    name, so older scan files keep working.
+
+    Raises
+    ------
+    RecordFormatError
+        Naming the file when it is not a NetCDF4/HDF5 file or is damaged or truncated.
+    tfhrv.dataset.schema.SchemaError
+        With ``check`` (default), naming the file and what is missing when it is a NetCDF
+        file but not a tfhrv scan file (:mod:`tfhrv.dataset.schema`).
     """
     from tfhrv.dataset.schema import validate
 
-    with xr.open_datatree(path, engine=_ENGINE) as tree:
-        tree = tree.load()
+    name = str(path)
+    try:
+        with xr.open_datatree(path, engine=_ENGINE) as tree:
+            tree = tree.load()
+    except FileNotFoundError:
+        raise RecordFormatError(name, "no such file") from None
+    except IsADirectoryError:
+        raise RecordFormatError(name, "is a folder, not a scan file") from None
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise RecordFormatError(
+            name, "is not a readable NetCDF4 scan file (not NetCDF4/HDF5, damaged or "
+            f"truncated: {first[:120]})") from None
     for old, new in RENAMED_GROUPS.items():
         if old in tree.children and new not in tree.children:
             tree[f"/{new}"] = xr.DataTree(tree[f"/{old}"].to_dataset())
             del tree[old]
-    return validate(tree, path=str(path)) if check else tree
+    return validate(tree, path=name) if check else tree

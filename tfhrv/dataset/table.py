@@ -165,7 +165,7 @@ def write_window_table(tree: xr.DataTree, path: str | Path, /, *,
     ValueError
         For a suffix other than ``.csv`` or ``.parquet``.
     """
-    from tfhrv.dataset.netcdf import atomic_write
+    from tfhrv.core.files import atomic_write
 
     p = Path(path)
     suffix = p.suffix.lower()

@@ -207,6 +207,10 @@ class ScalingFit:
         chi-square lack-of-fit test of the binned points against one line, given the known
         scatter of log periodogram ordinates, and the RMS departure from the line beyond
         that scatter (log10 units); see :func:`tfhrv.estimators.spectral.spectral_exponent`.
+    withheld : str
+        Empty when the exponent stands; otherwise a reason code (and text) why the data hold
+        no exponent to report (``exponent``, ``se`` and ``ci`` are then NaN; the fitted
+        curve is kept); see :func:`tfhrv.analysis.policy.withhold_reason`.
     """
 
     exponent: float
@@ -231,6 +235,7 @@ class ScalingFit:
     calibrated: bool = False
     lack_of_fit_pvalue: float = float("nan")
     excess_scatter: float = float("nan")
+    withheld: str = ""
 
     def __post_init__(self) -> None:
         for name in ("x", "y", "weights", "used"):

@@ -30,6 +30,30 @@ label      label, beat_label, annotation, beat_type, type, code
 
 At least a beat-time, clock or interval column is needed.  With intervals only, beat
 times are their running sum; with beat times only, intervals are their differences.
+Two columns that could play the same role (``rr`` and ``nn``; a name repeated) are
+refused as ambiguous; name the one to use.  When both beat times and intervals are given
+they must agree: a beat time may not advance by less than the interval that ends on it
+(10 % or 20 ms tolerance, common practice for timestamp rounding), and the median step
+must be within 10 % of the median interval (a longer step is a gap); otherwise the units
+of one column are wrong and the file is refused at the first line that disagrees.
+
+Lines end only at ``\n`` or ``\r\n``; a Unicode line or paragraph separator, a NEL or
+any other control character inside the text is refused with its line.
+
+Limits
+------
+A recording may span at most ``max_span_s`` (default
+:data:`tfhrv.signal.recording.MAX_SPAN_S`, 31 days; common practice); a beat time or an
+interval sum beyond it is refused at its line, so that no work grows with what a single
+number claims.
+
+Clock time
+----------
+Timestamps with a UTC offset keep their offsets per beat (a change of offset moves the
+clock hours).  Naive timestamps are local clock time; with ``tz`` (an IANA name such as
+``Europe/Berlin``) they are read in that zone, through daylight-saving changes: a
+spring-forward change leaves no invented gap, and the repeated hour of a fall-back change
+is read as the second showing when the first would go backwards.
 
 EDF+
 ----
@@ -53,7 +77,9 @@ from typing import Literal
 import numpy as np
 
 from tfhrv.core.errors import RecordFormatError, UnknownLabelWarning
-from tfhrv.signal.recording import KNOWN_LABELS, Recording
+from tfhrv.core.files import short_text
+from tfhrv.signal.clock import LocalClock, load_zone, localize
+from tfhrv.signal.recording import KNOWN_LABELS, MAX_SPAN_S, Recording
 
 __all__ = ["read_recording", "parse_start"]
 
@@ -117,6 +143,8 @@ def read_recording(
     label_column: str | None = None,
     start: str | dt.datetime | dt.time | None = None,
     record_id: str | None = None,
+    tz: str | None = None,
+    max_span_s: float = MAX_SPAN_S,
 ) -> Recording:
     """Read a beat-interval file (plain or gzip) into a :class:`~tfhrv.signal.recording.Recording`.
 
@@ -136,6 +164,12 @@ def read_recording(
         Wall-clock start; overrides the file's own.
     record_id : str, optional
         Identifier; by default the file's ``# record:`` comment or the file name stem.
+    tz : str, optional
+        IANA time zone of the naive clock times (file timestamps and ``start``), e.g.
+        ``"Europe/Berlin"``; needs a start with a date.  Clock hours are then local civil
+        time through daylight-saving changes.
+    max_span_s : float, default :data:`tfhrv.signal.recording.MAX_SPAN_S` (31 days)
+        Longest accepted span from the recording start to the last beat, s.
 
     Returns
     -------
@@ -152,6 +186,13 @@ def read_recording(
         raise ValueError(f"fmt must be one of ('auto', 'values', 'table', 'edf'), got {fmt!r}")
     if units not in (None, "ms", "s"):
         raise ValueError(f"units must be one of ('ms', 's'), got {units!r}")
+    try:
+        max_span = float(max_span_s)
+    except (TypeError, ValueError):
+        raise TypeError(f"max_span_s must be a number, got {max_span_s!r}") from None
+    if not (np.isfinite(max_span) and max_span > 0):
+        raise ValueError(f"max_span_s must be finite and > 0, got {max_span_s!r}")
+    zone = load_zone(tz) if tz is not None else None
     if not p.exists():
         raise RecordFormatError(name, "no such file")
     if p.is_dir():
@@ -169,12 +210,13 @@ def read_recording(
         stem = stem.removesuffix(suffix)
     start_override = _coerce_start(start, name)
     if fmt == "edf" or (fmt == "auto" and _looks_like_edf(raw)):
-        rec = _read_edf(raw, name)
+        rec = _read_edf(raw, name, max_span)
     else:
         text = _decode(raw, name)
         rec = _read_text(
             text, name, fmt=fmt, units=units, delimiter=delimiter, decimal=decimal,
             columns=(time_column, clock_column, interval_column, label_column),
+            max_span=max_span, zone=zone,
         )
     unknown = rec.metadata.get("unknown_labels")
     if unknown:
@@ -184,11 +226,36 @@ def read_recording(
             UnknownLabelWarning, stacklevel=2,
         )
     start_value = start_override if start_override is not None else rec.start
+    clock = rec.clock if start_override is None else None
+    start_value, clock = _apply_zone(start_value, clock, zone, rec, name)
     rid = record_id or str(rec.metadata.get("record") or stem)
-    return Recording(
-        rec.beat_time_s, rec.rr_ms, rec.labels, start=start_value, record_id=rid,
-        source=name, metadata=rec.metadata,
-    )
+    meta = dict(rec.metadata)
+    if clock is not None:
+        meta["time_zone"] = clock.zone or "offsets from the file"
+    try:
+        return Recording(
+            rec.beat_time_s, rec.rr_ms, rec.labels, start=start_value, record_id=rid,
+            source=name, metadata=meta, clock=clock,
+        )
+    except (TypeError, ValueError) as exc:
+        raise RecordFormatError(name, str(exc)) from None
+
+
+def _apply_zone(start, clock, zone, rec: Recording, name: str):
+    """The start as an aware time and the clock of UTC offsets, when they can be known."""
+    if zone is None:
+        if isinstance(start, dt.datetime) and start.tzinfo is not None and clock is None:
+            clock = LocalClock.fixed(start.utcoffset().total_seconds())
+        return start, clock
+    if not isinstance(start, dt.datetime):
+        raise RecordFormatError(
+            name, "a time zone needs a start with a date (daylight-saving changes depend "
+            "on it); give one with --start YYYY-MM-DDTHH:MM or in the file")
+    try:
+        start = (localize(start, zone) if start.tzinfo is None else start.astimezone(zone))
+    except ValueError as exc:
+        raise RecordFormatError(name, f"start: {exc}") from None
+    return start, LocalClock.from_zone(zone, start, float(rec.beat_time_s[-1]))
 
 
 # --------------------------------------------------------------------------- helpers
@@ -227,10 +294,12 @@ def _decode(raw: bytes, name: str) -> str:
         raise RecordFormatError(
             name, "holds bytes that are not UTF-8 text (binary or garbage data?)", line=line
         ) from None
-    bad = re.search(r"[\x01-\x08\x0b\x0e-\x1f\x7f]", text)
+    bad = re.search(r"[\x01-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\u2028\u2029]", text)
     if bad:
         line = text.count("\n", 0, bad.start()) + 1
-        raise RecordFormatError(name, "holds control characters; not a text export", line=line)
+        raise RecordFormatError(name, f"holds a control or line-separator character "
+                                f"(U+{ord(bad.group()):04X}); not a plain text export",
+                                line=line)
     return text
 
 
@@ -238,8 +307,13 @@ class _Lines:
     """Non-comment, non-blank lines with their 1-based line numbers and the metadata."""
 
     def __init__(self, text: str) -> None:
-        self.ends_with_newline = text.endswith(("\n", "\r"))
-        stripped = [line.strip() for line in text.splitlines()]
+        self.ends_with_newline = text.endswith("\n")
+        # lines end only at \n (and \r\n): str.splitlines would also split at U+2028,
+        # U+0085 and others, turning one line into two
+        parts = text.split("\n")
+        if parts and parts[-1] == "":
+            parts.pop()
+        stripped = [line.strip() for line in parts]
         skip = [i for i, s in enumerate(stripped) if not s or s[0] == "#"]
         self.metadata: dict[str, str] = {}
         for i in skip:
@@ -257,21 +331,22 @@ class _Lines:
             self.lines = stripped
 
 
-def _read_text(text, name, *, fmt, units, delimiter, decimal, columns) -> Recording:
+def _read_text(text, name, *, fmt, units, delimiter, decimal, columns, max_span, zone
+               ) -> Recording:
     body = _Lines(text)
     if not body.lines:
         raise RecordFormatError(name, "holds no data lines (only comments or blank lines)")
     first = body.lines[0]
     is_header = bool(re.search(r"[A-Za-z_]", first)) and not _is_number_token(first)
     if fmt == "values" or (fmt == "auto" and not is_header and _single_token(first)):
-        rec = _read_values(body, name, units=units, decimal=decimal)
+        rec = _read_values(body, name, units=units, decimal=decimal, max_span=max_span)
     elif fmt == "table" or is_header:
         if not is_header:
             raise RecordFormatError(
                 name, "a table needs a header line naming its columns", line=body.numbers[0]
             )
         rec = _read_table(body, name, units=units, delimiter=delimiter, decimal=decimal,
-                          columns=columns)
+                          columns=columns, max_span=max_span, zone=zone)
     else:
         raise RecordFormatError(
             name,
@@ -287,7 +362,7 @@ def _read_text(text, name, *, fmt, units, delimiter, decimal, columns) -> Record
             raise RecordFormatError(name, f"comment 'start': {exc}") from None
     meta = {**body.metadata, **rec.metadata}
     return Recording(rec.beat_time_s, rec.rr_ms, rec.labels, start=rec.start or start,
-                     metadata=meta)
+                     metadata=meta, clock=rec.clock if rec.start else None)
 
 
 def _is_number_token(s: str) -> bool:
@@ -310,14 +385,14 @@ def _to_floats(tokens: Sequence[str], numbers: Sequence[int], name: str, what: s
                 float(tok)
             except ValueError:
                 raise RecordFormatError(
-                    name, f"{str(tok).strip()!r} in {what} is not a number", line=ln
+                    name, f"{short_text(str(tok).strip())} in {what} is not a number", line=ln
                 ) from None
         raise  # pragma: no cover - numpy and float() agree on what parses
     bad = ~np.isfinite(vals)
     if bad.any():
         i = int(np.argmax(bad))
-        raise RecordFormatError(name, f"{toks[i].strip()!r} in {what} is not a finite number",
-                                line=numbers[i])
+        raise RecordFormatError(name, f"{short_text(toks[i].strip())} in {what} is not a "
+                                "finite number", line=numbers[i])
     return vals
 
 
@@ -360,20 +435,68 @@ def _check_truncated(body: _Lines, name: str, n_fields: int, sep: str | None) ->
                                 line=body.numbers[-1])
 
 
-def _read_values(body: _Lines, name: str, *, units, decimal) -> Recording:
+def _check_span(t: np.ndarray, numbers: Sequence[int], name: str, max_span: float,
+                what: str) -> None:
+    """Refuse a record whose beats reach past ``max_span`` s from its start."""
+    over = ~(t <= max_span)  # also NaN/inf from an overflowing sum
+    if over.any():
+        i = int(np.argmax(over))
+        raise RecordFormatError(
+            name, f"{what} reaches {t[i]:.6g} s from the start, beyond the limit of "
+            f"{max_span / 86400:g} days ({max_span:g} s); physiologically impossible for one "
+            "recording (a unit or typing error?); for a longer valid record raise the limit "
+            "with --max-span-days", line=numbers[i])
+
+
+def _read_values(body: _Lines, name: str, *, units, decimal, max_span) -> Recording:
     for ln, line in zip(body.numbers, body.lines, strict=True):
         if not _single_token(line):
-            raise RecordFormatError(name, f"expected one value per line, got {line[:40]!r}",
-                                    line=ln)
+            raise RecordFormatError(name, f"expected one value per line, got "
+                                    f"{short_text(line, 40)}", line=ln)
     decimal_comma = decimal == "," or (decimal is None and any("," in s for s in body.lines[:50]))
     vals = _to_floats(body.lines, body.numbers, name, "the intervals", decimal_comma)
     _check_positive(vals, body.numbers, name)
     unit = units or _infer_units(vals, name, "the intervals")
     _check_mixed_units(vals, unit, body.numbers, name)
     rr = vals * (1000.0 if unit == "s" else 1.0)
+    t = np.cumsum(rr) / 1000.0
+    _check_span(t, body.numbers, name, max_span, "the running sum of the intervals")
+    _check_increasing(t, body.numbers, name)
     labels = np.full(rr.size, "N")
     meta = {"format": "values", "interval_unit": unit, "units_inferred": units is None}
-    return Recording(np.cumsum(rr) / 1000.0, rr, labels, metadata=meta)
+    return Recording(t, rr, labels, metadata=meta)
+
+
+def _check_increasing(t: np.ndarray, numbers: Sequence[int], name: str) -> None:
+    """Refuse beat times that repeat in floating point (a huge value swallowing the next)."""
+    steps = np.diff(t)
+    bad = ~(steps > 0)
+    if bad.any():
+        i = int(np.argmax(bad)) + 1
+        raise RecordFormatError(name, f"beat time does not advance ({t[i - 1]:.17g} then "
+                                f"{t[i]:.17g} s; an interval too small next to a huge one?)",
+                                line=numbers[i])
+
+
+def _check_agreement(t: np.ndarray, rr_ms: np.ndarray, numbers: Sequence[int], name: str,
+                     tcol: str, rcol: str) -> None:
+    """Beat times and intervals given together must describe the same beats."""
+    if t.size < 3:
+        return
+    step = np.diff(t)
+    rr_s = rr_ms[1:] / 1000.0
+    ratio = float(np.median(step / rr_s))
+    if not 0.9 <= ratio <= 1.1:
+        raise RecordFormatError(
+            name, f"beat times in column {tcol!r} and intervals in column {rcol!r} disagree: "
+            f"the median beat-time step is {ratio:.3g} times the median interval (one of the "
+            "two columns is in other units than its name says?)", line=numbers[1])
+    short = step < rr_s - np.maximum(0.1 * rr_s, 0.02)
+    if short.any():
+        i = int(np.argmax(short))
+        raise RecordFormatError(
+            name, f"beat time advances {step[i]:.4g} s but the interval ending on that beat "
+            f"is {rr_s[i]:.4g} s (column {tcol!r} vs {rcol!r})", line=numbers[i + 1])
 
 
 def _check_positive(vals: np.ndarray, numbers: Sequence[int], name: str) -> None:
@@ -392,19 +515,25 @@ def _norm(col: str) -> str:
 
 
 def _pick(header: list[str], wanted: str | None, names: Sequence[str], name: str,
-          role: str) -> int | None:
+          role: str, option: str) -> int | None:
     normed = [_norm(h) for h in header]
     if wanted is not None:
         w = _norm(wanted)
         if w not in normed:
             raise RecordFormatError(
-                name, f"no column named {wanted!r} for the {role} (columns: {', '.join(header)})",
-                line=None)
+                name, f"no column named {short_text(wanted)} for the {role} (columns: "
+                f"{short_text(', '.join(header), 200)})", line=1)
+        if normed.count(w) > 1:
+            raise RecordFormatError(name, f"the header names column {short_text(wanted)} "
+                                    f"{normed.count(w)} times", line=1)
         return normed.index(w)
-    for candidate in names:
-        if candidate in normed:
-            return normed.index(candidate)
-    return None
+    found = [i for i, h in enumerate(normed) if h in names]
+    if len(found) > 1:
+        cols = " and ".join(short_text(header[i], 40) for i in found)
+        raise RecordFormatError(
+            name, f"ambiguous columns: {cols} could each be the {role}; say which with "
+            f"{option}", line=1)
+    return found[0] if found else None
 
 
 def _sniff_delimiter(header: str) -> str:
@@ -413,24 +542,30 @@ def _sniff_delimiter(header: str) -> str:
     return best if counts[best] > 0 else ","
 
 
-def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns) -> Recording:
+def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, max_span,
+                zone) -> Recording:
     sep = delimiter or _sniff_delimiter(body.lines[0])
     header = [h.strip() for h in body.lines[0].split(sep)]
+    if len(header) > 64:
+        raise RecordFormatError(name, f"the header has {len(header)} columns (at most 64 "
+                                "are read); is this a beat-interval table?", line=body.numbers[0])
     nf = len(header)
     rows = body.lines[1:]
     numbers = body.numbers[1:]
     if not rows:
         raise RecordFormatError(name, "has a header but no data rows", line=body.numbers[0])
     want_time, want_clock, want_interval, want_label = columns
-    i_time = _pick(header, want_time, _TIME_NAMES, name, "beat time")
-    i_clock = _pick(header, want_clock, _CLOCK_NAMES, name, "clock timestamp")
-    i_rr = _pick(header, want_interval, _INTERVAL_NAMES, name, "interval")
-    i_lab = _pick(header, want_label, _LABEL_NAMES, name, "beat label")
+    i_time = _pick(header, want_time, _TIME_NAMES, name, "beat time", "--time-column")
+    i_clock = _pick(header, want_clock, _CLOCK_NAMES, name, "clock timestamp",
+                    "--clock-column")
+    i_rr = _pick(header, want_interval, _INTERVAL_NAMES, name, "interval",
+                 "--interval-column")
+    i_lab = _pick(header, want_label, _LABEL_NAMES, name, "beat label", "--label-column")
     if i_time is None and i_clock is None and i_rr is None:
         raise RecordFormatError(
             name, "no beat-time, clock or interval column found among "
-            f"{', '.join(header)}; name them (e.g. beat_time_s, rr_ms, label) or use "
-            "--time-column/--interval-column", line=body.numbers[0])
+            f"{short_text(', '.join(header), 200)}; name them (e.g. beat_time_s, rr_ms, "
+            "label) or use --time-column/--interval-column", line=body.numbers[0])
     _check_truncated(body, name, nf, sep)
     counts = np.fromiter((r.count(sep) for r in rows), dtype=np.int64, count=len(rows))
     wrong = counts != nf - 1
@@ -460,8 +595,9 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns) 
         rr = rr_raw * (1000.0 if unit == "s" else 1.0)
     start = None
     t = None
+    clock = None
     if i_clock is not None:
-        t, start = _clock_to_seconds(cols[i_clock], numbers, name, rr)
+        t, start, clock = _clock_to_seconds(cols[i_clock], numbers, name, rr, zone, max_span)
         meta["time_source"] = f"clock column {header[i_clock]!r}"
     elif i_time is not None:
         t = _to_floats(cols[i_time], numbers, name, f"column {header[i_time]!r}", decimal_comma)
@@ -474,8 +610,13 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns) 
         if bad.any():
             i = int(np.argmax(bad)) + 1
             kind = "repeats" if steps[i - 1] == 0 else "goes backwards"
-            raise RecordFormatError(name, f"beat time {kind} ({t[i - 1]:g} then {t[i]:g})",
-                                    line=numbers[i])
+            hint = ("; if the clocks fell back for daylight saving, give the time zone "
+                    "with --tz" if i_clock is not None and kind == "goes backwards" else "")
+            raise RecordFormatError(name, f"beat time {kind} ({t[i - 1]:g} then {t[i]:g})"
+                                    + hint, line=numbers[i])
+        _check_span(t, numbers, name, max_span, "a beat time")
+        if rr is not None and i_clock is None:
+            _check_agreement(t, rr, numbers, name, header[i_time], header[i_rr])
     if rr is None:
         rr = np.diff(t) * 1000.0
         t = t[1:]
@@ -485,6 +626,8 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns) 
         meta["intervals_from"] = "beat time differences"
     elif t is None:
         t = np.cumsum(rr) / 1000.0
+        _check_span(t, numbers, name, max_span, "the running sum of the intervals")
+        _check_increasing(t, numbers, name)
     if t[0] < 0:
         raise RecordFormatError(name, f"beat time {t[0]:g} s is negative", line=numbers[0])
     if i_lab is not None:
@@ -494,7 +637,8 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns) 
         labels = _check_labels(labels, name, meta)
     else:
         labels = np.full(rr.size, "N")
-    return Recording(t, rr, labels, start=start, metadata=meta)
+    return Recording(t, rr, labels, start=start, metadata=meta,
+                     clock=clock if isinstance(start, dt.datetime) else None)
 
 
 def _check_labels(labels: np.ndarray, name: str, meta: dict) -> np.ndarray:
@@ -509,21 +653,25 @@ def _check_labels(labels: np.ndarray, name: str, meta: dict) -> np.ndarray:
     return labels
 
 
-def _clock_to_seconds(tokens, numbers, name, rr):
+def _clock_to_seconds(tokens, numbers, name, rr, zone, max_span):
     stamps: list[dt.datetime] = []
     day = dt.date(2000, 1, 1)
     time_only = None
     prev_tod = None
+    prev_aware = None
     for tok, ln in zip(tokens, numbers, strict=True):
         s = tok.strip().strip('"')
         try:
             v = parse_start(s)
         except ValueError:
-            raise RecordFormatError(name, f"clock time {s!r} is not a timestamp or HH:MM:SS",
-                                    line=ln) from None
+            raise RecordFormatError(name, f"clock time {short_text(s, 40)} is not a timestamp "
+                                    "or HH:MM:SS", line=ln) from None
         is_tod = isinstance(v, dt.time)
         if time_only is None:
             time_only = is_tod
+            if is_tod and zone is not None:
+                raise RecordFormatError(name, "a time zone needs dates in the clock column "
+                                        "(daylight-saving changes depend on them)", line=ln)
         elif time_only != is_tod:
             raise RecordFormatError(name, "clock column mixes dates and bare times of day",
                                     line=ln)
@@ -533,23 +681,44 @@ def _clock_to_seconds(tokens, numbers, name, rr):
                 day = day + dt.timedelta(days=1)  # midnight rollover
             prev_tod = v
             stamps.append(dt.datetime.combine(day, v))
+        elif zone is not None:
+            try:
+                v = localize(v, zone, after=prev_aware) if v.tzinfo is None else v
+            except ValueError as exc:
+                raise RecordFormatError(name, str(exc), line=ln) from None
+            prev_aware = v
+            stamps.append(v)
         else:
             stamps.append(v)
-    if any(s.tzinfo is not None for s in stamps) and any(s.tzinfo is None for s in stamps):
+    aware = [s.tzinfo is not None for s in stamps]
+    if any(aware) and not all(aware):
         raise RecordFormatError(name, "clock column mixes time zones and naive times")
     first = stamps[0]
-    secs = np.array([(s - first).total_seconds() for s in stamps])
+    clock = None
+    if all(aware):
+        utc = [s.astimezone(dt.UTC) for s in stamps]
+        secs = np.array([(u - utc[0]).total_seconds() for u in utc])
+        offsets = np.array([s.utcoffset().total_seconds() for s in stamps])
+    else:
+        secs = np.array([(s - first).total_seconds() for s in stamps])
     lead = (rr[0] / 1000.0) if rr is not None else 0.0
+    _check_span(secs + lead, numbers, name, max_span, "a clock time")
     origin = first - dt.timedelta(seconds=lead)
+    if all(aware):
+        if zone is not None:
+            origin = origin.astimezone(dt.UTC).astimezone(zone)
+            clock = LocalClock.from_zone(zone, origin, float(secs[-1] + lead))
+        else:
+            clock = LocalClock.from_offsets(secs + lead, offsets)
     start = origin.time() if time_only else origin
-    return secs + lead, start
+    return secs + lead, start, clock
 
 
 def _tod_seconds(t: dt.time) -> float:
     return t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
 
 
-def _read_edf(raw: bytes, name: str) -> Recording:
+def _read_edf(raw: bytes, name: str, max_span: float) -> Recording:
     import edfio
 
     try:
@@ -574,6 +743,9 @@ def _read_edf(raw: bytes, name: str) -> Recording:
         raise RecordFormatError(name, "EDF+ file has fewer than two beat annotations")
     order = np.argsort(onsets, kind="stable")
     t = np.asarray(onsets)[order]
+    if not np.all(np.isfinite(t)) or t[0] < 0:
+        raise RecordFormatError(name, "EDF+ beat annotation onsets must be finite and >= 0")
+    _check_span(t, [None] * t.size, name, max_span, "a beat annotation")
     lab = np.asarray(labels, dtype=str)[order]
     steps = np.diff(t)
     if np.any(steps <= 0):

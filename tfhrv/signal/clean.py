@@ -15,7 +15,7 @@ import numpy as np
 from scipy import ndimage
 
 from tfhrv.core.validation import check_positive, readonly
-from tfhrv.signal.recording import SINUS_LABELS, Recording
+from tfhrv.signal.recording import MAX_SPAN_S, SINUS_LABELS, Recording
 
 __all__ = ["CleanOptions", "CleanResult", "Quality", "Reason", "clean"]
 
@@ -55,6 +55,11 @@ class CleanOptions:
         An interval at least this long, or a beat-time jump that exceeds the interval by
         at least this much, is a gap (unreadable stretch); default 3 s (common practice:
         longer than any plausible sinus pause at rest).
+    max_span_s : float
+        Longest accepted span from the recording start to the last beat, default
+        :data:`tfhrv.signal.recording.MAX_SPAN_S` (31 days; common practice).  The hourly
+        coverage and the resampled series grow with the span, so a record claiming more
+        is refused rather than allowed to exhaust memory.
     """
 
     min_ms: float = 300.0
@@ -62,8 +67,10 @@ class CleanOptions:
     max_relative_change: float = 0.2
     reference_beats: int = 11
     gap_min_s: float = 3.0
+    max_span_s: float = MAX_SPAN_S
 
     def __post_init__(self) -> None:
+        check_positive(self.max_span_s, "max_span_s")
         check_positive(self.min_ms, "min_ms")
         check_positive(self.max_ms, "max_ms")
         if self.min_ms >= self.max_ms:
@@ -208,6 +215,11 @@ def clean(recording: Recording, /, *, options: CleanOptions | None = None) -> Cl
     opt = options or CleanOptions()
     rr = recording.rr_ms
     t = recording.beat_time_s
+    if not t[-1] <= opt.max_span_s:
+        where = f"{recording.source}: " if recording.source else ""
+        raise ValueError(f"{where}the last beat is {t[-1]:.6g} s from the start, beyond "
+                         f"max_span_s = {opt.max_span_s:g} s ({opt.max_span_s / 86400:g} "
+                         "days)")
     n = rr.size
     reason = np.zeros(n, dtype=np.uint8)
 

@@ -10,7 +10,14 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["SINUS_LABELS", "KNOWN_LABELS", "Recording"]
+__all__ = ["SINUS_LABELS", "KNOWN_LABELS", "MAX_SPAN_S", "Recording"]
+
+#: Longest recording span accepted by default, s (31 days).  Common practice: multi-day
+#: ambulatory ECG recordings last up to about 14 days; twice that leaves room for long
+#: research recordings while refusing a beat time such as 1e9 s (31 years) that would make
+#: the work grow with what a number claims instead of with the data.  The readers and
+#: :func:`tfhrv.signal.clean.clean` take a ``max_span_s`` option for the rare valid case.
+MAX_SPAN_S: float = 31 * 86400.0
 
 #: Beat label codes treated as sinus (normal) beats.
 SINUS_LABELS: frozenset[str] = frozenset({"N"})
@@ -48,6 +55,9 @@ class Recording:
         The file it was read from.
     metadata : mapping
         Anything else the reader found (units inferred, columns used, header fields).
+    clock : LocalClock or None
+        UTC offsets over the record when they are known (an IANA zone, or the offsets of
+        the file's timestamps); clock hours are then local civil time through a change.
 
     Raises
     ------
@@ -63,6 +73,7 @@ class Recording:
     record_id: str = "record"
     source: str | None = None
     metadata: Mapping[str, Any] = field(default_factory=dict)
+    clock: Any = None
 
     def __post_init__(self) -> None:
         t = np.array(self.beat_time_s, dtype=np.float64)
@@ -91,6 +102,13 @@ class Recording:
             )
         if self.start is not None and not isinstance(self.start, dt.datetime | dt.time):
             raise TypeError(f"start must be a datetime, a time or None, got {self.start!r}")
+        if self.clock is not None:
+            from tfhrv.signal.clock import LocalClock
+
+            if not isinstance(self.clock, LocalClock):
+                raise TypeError(f"clock must be a LocalClock or None, got {self.clock!r}")
+            if not isinstance(self.start, dt.datetime):
+                raise ValueError("a clock (UTC offsets) needs a start with a date")
         for name, arr in (("beat_time_s", t), ("rr_ms", rr), ("labels", lab)):
             arr.flags.writeable = False
             object.__setattr__(self, name, arr)
@@ -111,12 +129,27 @@ class Recording:
         """True when the start is a full timestamp (not only a time of day)."""
         return isinstance(self.start, dt.datetime)
 
-    def with_start(self, start: dt.datetime | dt.time | None) -> Recording:
-        """Return a copy with another wall-clock start."""
+    def with_start(self, start: dt.datetime | dt.time | None, clock: Any = None) -> Recording:
+        """Return a copy with another wall-clock start (and its clock, if any)."""
         return Recording(
             self.beat_time_s, self.rr_ms, self.labels, start=start,
             record_id=self.record_id, source=self.source, metadata=dict(self.metadata),
+            clock=clock,
         )
+
+    def clock_hours(self, elapsed_s: Any, /) -> np.ndarray | None:
+        """Local clock hour (0-24) at elapsed times (s), or None when the start is unknown.
+
+        Through a daylight-saving change when :attr:`clock` knows the offsets.
+        """
+        if self.start is None:
+            return None
+        e = np.asarray(elapsed_s, dtype=np.float64)
+        if self.clock is not None:
+            return self.clock.clock_hours(self.start, e)
+        tod = self.start.time() if isinstance(self.start, dt.datetime) else self.start
+        h0 = tod.hour + tod.minute / 60 + tod.second / 3600 + tod.microsecond / 3.6e9
+        return (h0 + e / 3600.0) % 24.0
 
     @classmethod
     def from_intervals(

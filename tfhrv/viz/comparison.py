@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from tfhrv.dataset.netcdf import atomic_write
+from tfhrv.core.files import atomic_write
 
 __all__ = ["KEY_VARIABLES", "plot_comparison"]
 
@@ -18,7 +18,7 @@ KEY_VARIABLES = ("nn_sd_ms", "rmssd_ms", "nn_mean_ms", "alpha1", "alpha2", "beta
 
 
 def plot_comparison(study: pd.DataFrame, comparison: pd.DataFrame, path: str | Path, /, *,
-                    group: str = "group", groups: Sequence[str]) -> Path | None:
+                    group: str = "group", groups: Sequence[str], outputs=None) -> Path | None:
     """Strip and box plot by group of the key variables, titled with the adjusted p.
 
     ``groups`` are the group labels in the order to draw them.  Returns the file written,
@@ -59,4 +59,8 @@ def plot_comparison(study: pd.DataFrame, comparison: pd.DataFrame, path: str | P
         ax.set_axis_off()
     fig.suptitle("Groups compared: Mann-Whitney U, Benjamini-Hochberg adjusted p "
                  "(first pair). Research use only.", fontsize=9)
-    return atomic_write(path, lambda tmp: fig.savefig(tmp, format="png", dpi=100))
+    def write(tmp):
+        fig.savefig(tmp, format="png", dpi=100)
+
+    # staged in ``outputs`` (a tfhrv.core.files.OutputSet) when given
+    return outputs.add(path, write) if outputs is not None else atomic_write(path, write)

@@ -183,7 +183,7 @@ def overview(tree: xr.DataTree, /):
     ax_nn.tick_params(labelbottom=False)
     legend = {"loc": "lower left", "bbox_to_anchor": (0.0, 1.0), "fontsize": 7.5,
               "handlelength": 1.6, "columnspacing": 1.2, "borderaxespad": 0.2}
-    ax_nn.legend(ncol=3, **legend)
+    _legend(ax_nn, ncol=3, **legend)
     if handles:
         ax_ex.legend(*zip(*handles, strict=True), ncol=2,
                      title="shaded: calibrated 95 % confidence interval",
@@ -265,8 +265,8 @@ def spectrum(tree: xr.DataTree, /):
     ax_r.set_ylabel("residual\n(log10 units)")
     ax_r.set_xlabel("frequency (Hz)")
     ax.tick_params(labelbottom=False)
-    ax.legend(loc="lower left", title=f"β = {_fmt_ci(beta, ci)} (calibrated, 95 % CI)",
-              title_fontsize=8.5, alignment="left")
+    _legend(ax, loc="lower left", title=f"β = {_fmt_ci(beta, ci)} (calibrated, 95 % CI)",
+            title_fontsize=8.5, alignment="left")
     return fig
 
 
@@ -340,8 +340,8 @@ def dfa(tree: xr.DataTree, /):
     ax_s.set_ylabel("local slope\n(dimensionless)")
     ax_s.set_xlabel("box size n (beats)")
     ax.tick_params(labelbottom=False)
-    ax.legend(loc="upper left", title="bias-corrected value [calibrated 95 % CI]",
-              title_fontsize=8, alignment="left")
+    _legend(ax, loc="upper left", title="bias-corrected value [calibrated 95 % CI]",
+            title_fontsize=8, alignment="left")
     return fig
 
 
@@ -391,8 +391,8 @@ def logscale(tree: xr.DataTree, /):
         top.tick_params(labelsize=7.5)
         top.set_xlabel(r"time scale $2^j$ × mean NN interval", fontsize=8)
     value = _fmt_ci(_scalar(rec, "beta_wavelet"), _values(rec, "beta_wavelet_ci"))
-    ax.legend(loc="upper left", title=f"β = {value} (calibrated, 95 % CI)",
-              title_fontsize=8.5, alignment="left")
+    _legend(ax, loc="upper left", title=f"β = {value} (calibrated, 95 % CI)",
+            title_fontsize=8.5, alignment="left")
     return fig
 
 
@@ -702,9 +702,8 @@ def circadian(tree: xr.DataTree, /):
         if r is not None:
             ax.set_ylim(max(r[0], -0.5), min(r[1], 3.0))
         ax.set_ylabel(r"$\alpha$ (dimensionless)")
-        if ax.get_legend_handles_labels()[0]:
-            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
-                      handlelength=1.4)
+        _legend(ax, loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7.5,
+                handlelength=1.4)
     from matplotlib.ticker import FixedLocator, FuncFormatter
 
     axes[1].xaxis.set_major_locator(FixedLocator(np.arange(0, 25, 3)))
@@ -715,6 +714,16 @@ def circadian(tree: xr.DataTree, /):
                        "hours from start, folded on 24 h (clock time unknown)")
     axes[0].tick_params(labelbottom=False)
     return fig
+
+
+def _legend(ax, **kw) -> None:
+    """``ax.legend`` with the labelled artists that exist: no legend when there are none
+    and no title, a title-only legend otherwise (matplotlib warns "No artists with labels
+    found" when asked to find handles that a sparse record did not draw)."""
+    handles, labels = ax.get_legend_handles_labels()
+    if not handles and not kw.get("title"):
+        return
+    ax.legend(handles, labels, **kw)
 
 
 # ------------------------------------------------------------------ saving
@@ -732,21 +741,26 @@ FIGURES = {
 }
 
 
-def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.0) -> Path:
-    """Write one figure atomically (temporary file in the same folder, then ``os.replace``)."""
-    from tfhrv.dataset.netcdf import atomic_write
+def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.0,
+                outputs=None) -> Path:
+    """Write one figure atomically (temporary file in the same folder, then ``os.replace``),
+    or stage it in ``outputs`` (a :class:`tfhrv.core.files.OutputSet`)."""
+    from tfhrv.core.files import atomic_write
 
     check_choice(fmt, "fmt", ("png", "svg", "pdf"))
     dpi = check_positive(dpi, "dpi")
     meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
-    return atomic_write(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=dpi,
-                                                      metadata=meta[fmt]))
+
+    def write(tmp):
+        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=meta[fmt])
+
+    return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
 
 
 def save_all(tree: xr.DataTree, directory: str | Path, /, *,
              formats: tuple[str, ...] = ("png", "svg"), dpi: float = 110.0,
              prefix: str = "", alpha_range: tuple[float, float] | None = None,
-             progress=None) -> list[Path]:
+             progress=None, outputs=None) -> list[Path]:
     """Render every figure of :data:`FIGURES` and write it in each format.
 
     Parameters
@@ -764,6 +778,9 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         Fixed colour range of the local-exponent maps (default: fitted to the data).
     progress : tfhrv.core.progress.Progress, optional
         Told each figure (default: silent).
+    outputs : tfhrv.core.files.OutputSet, optional
+        Stage the files there (renamed with the command's other outputs) instead of
+        writing each at once.
 
     Returns
     -------
@@ -783,5 +800,6 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         fig = func(tree, alpha_range=alpha_range) if name.startswith("scale_map") \
             else func(tree)
         for fmt in formats:
-            written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi))
+            written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi,
+                                       outputs=outputs))
     return written

@@ -710,18 +710,23 @@ def _build_time(t0: float, started: float | None) -> str:
 
 def write_report(tree: xr.DataTree, path: str | Path, /, *,
                  circadian_table: pd.DataFrame | None = None, dpi: float = 110.0,
-                 progress=None, started: float | None = None) -> Path:
-    """Build the report and write it atomically (temporary file, then ``os.replace``).
+                 progress=None, started: float | None = None, outputs=None) -> Path:
+    """Build the report and write it atomically (temporary file, then ``os.replace``), or
+    stage it in ``outputs`` (a :class:`tfhrv.core.files.OutputSet`).
 
     Returns
     -------
     Path
         The file written.
     """
-    from tfhrv.dataset.netcdf import atomic_write
+    from tfhrv.core.files import atomic_write
 
     text = build_report(tree, circadian_table=circadian_table, dpi=dpi, progress=progress,
                         started=started)
     if progress is not None:
         progress.stage(f"write {path}")
-    return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+
+    def write(tmp):
+        Path(tmp).write_text(text, encoding="utf-8")
+
+    return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
