@@ -89,7 +89,8 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
         raise ValueError("inspect needs a recording file (or --explain alone)")
     thresholds = FitnessThresholds(
         max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
-        max_ectopic=args.max_ectopic / 100.0, max_nonstationary=args.max_nonstationary / 100.0)
+        max_ectopic=args.max_ectopic / 100.0, max_level_effect=args.max_level_effect,
+        caution_nonstationary=args.max_nonstationary / 100.0)
     ins = inspect_record(clean(_read(args)), thresholds=thresholds)
     if args.json:
         print(json.dumps(inspection_dict(ins), indent=2, default=float))
@@ -305,8 +306,12 @@ def build_parser() -> argparse.ArgumentParser:
                    help="analysable share, %% (75; Task Force 1996 asks for 18 of 24 h)")
     g.add_argument("--max-ectopic", type=float, default=10.0,
                    help="non-sinus beats, %% (10; common practice)")
-    g.add_argument("--max-nonstationary", type=float, default=50.0,
-                   help="non-stationary long windows, %% (50; common practice)")
+    g.add_argument("--max-level-effect", type=float, default=0.10,
+                   help="change of the FFT beta when the level changes are regressed "
+                   "out (0.10; about one calibrated SE, Bigger et al. 1996 group difference)")
+    g.add_argument("--max-nonstationary", type=float, default=25.0,
+                   help="non-stationary long windows, %%, above which a caution states the "
+                   "measured effect (25; common practice; the share alone is never unfit)")
     _add_reader_options(p)
     p.set_defaults(func=_cmd_inspect)
 
