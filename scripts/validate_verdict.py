@@ -41,7 +41,13 @@ import numpy as np  # noqa: E402
 
 from tfhrv import __version__  # noqa: E402
 from tfhrv.analysis.policy import Verdict  # noqa: E402
-from validation.families import record_families, window_families  # noqa: E402
+from validation.families import (  # noqa: E402
+    DISTORTION_MARGIN,
+    distortion_families,
+    record_families,
+    unfit_for_level_changes,
+    window_families,
+)
 
 NOTES = (
     "Reading notes.",
@@ -64,15 +70,22 @@ SEED0 = 3_000_000  # far from the calibration (< 10^7 but different range) and t
 
 
 def _families():
-    return window_families() + record_families()
+    return window_families() + record_families() + distortion_families()
 
 
-def _run(job: tuple[int, int]) -> tuple[int, str, bool]:
+def _run(job: tuple[int, int]) -> tuple[int, str, bool, float]:
     index, seed = job
     fam = _families()[index]
     out = fam.run(seed)
-    label = out.verdict if isinstance(out, Verdict) else str(out)
-    return index, label, bool(fam.hit(out))
+    hit = bool(fam.hit(out))
+    dist = float("nan")
+    if isinstance(out, tuple):  # (verdict, true distortion)
+        v, dist = out
+        label = (f"{'unfit(level)' if unfit_for_level_changes(v) else v.verdict}")
+        label += f" |D|{'>' if abs(dist) > DISTORTION_MARGIN else '<='}{DISTORTION_MARGIN:g}"
+    else:
+        label = out.verdict if isinstance(out, Verdict) else str(out)
+    return index, label, hit, dist
 
 
 def wilson(k: int, n: int, z: float = 1.96) -> tuple[float, float]:
@@ -88,7 +101,8 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--seeds", type=int, default=100)
     ap.add_argument("--workers", type=int, default=2)
-    ap.add_argument("--level", choices=("window", "record", "all"), default="all")
+    ap.add_argument("--level", choices=("window", "record", "distortion", "all"),
+                    default="all")
     ap.add_argument("--out", help="also write the table (markdown) to this file")
     args = ap.parse_args(argv)
     fams = _families()
@@ -96,9 +110,12 @@ def main(argv: list[str] | None = None) -> int:
     jobs = [(i, SEED0 + s) for i in chosen for s in range(args.seeds)]
     t0 = time.perf_counter()
     results: dict[int, list[tuple[str, bool]]] = {i: [] for i in chosen}
+    agree: list[bool] = []
     with ProcessPoolExecutor(max_workers=args.workers) as pool:
-        for i, label, hit in pool.map(_run, jobs, chunksize=4):
+        for i, label, hit, _dist in pool.map(_run, jobs, chunksize=1):
             results[i].append((label, hit))
+            if fams[i].kind == "agreement":
+                agree.append(hit)
     elapsed = time.perf_counter() - t0
     lines = [
         "# Validation of the stationarity battery and the FFT-slope fitness verdict",
@@ -132,6 +149,15 @@ def main(argv: list[str] | None = None) -> int:
         outcomes = ", ".join(f"{c} {v}" for c, v in counts.most_common())
         lines.append(f"| {f.name} | {f.level} | {f.expected} | {f.kind} | {k}/{n} "
                      f"| {lo:.2f}-{hi:.2f} | {target} | {verdict} | {outcomes} |")
+    if agree:
+        k, n = sum(agree), len(agree)
+        lo, hi = wilson(k, n)
+        ok = k / n >= 0.90
+        failed += not ok
+        lines += ["", f"**Agreement over all day/night and variance families** (unfit for "
+                  f"level changes iff the true |distortion| > {DISTORTION_MARGIN:g}): "
+                  f"{k}/{n} = {k / n:.2f} (95 % CI {lo:.2f}-{hi:.2f}); target >= 90 %: "
+                  f"{'PASS' if ok else 'FAIL'}."]
     lines += ["", f"{failed} target(s) failed.", "", *NOTES]
     text = "\n".join(lines) + "\n"
     print(text)
