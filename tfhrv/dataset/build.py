@@ -394,6 +394,7 @@ def _record_dataset(cleaned: CleanResult, long_categories: np.ndarray, opt: Scan
         "recommended_estimator": verdict.recommended,
         "checks": json.dumps(verdict.checks, default=float),
     })
+    data.update(_consequence_vars(assessment))
     qd = q.as_dict()
     for key in ("coverage", "share_kept", "ectopic_share", "longest_gap_s", "nn_mean_ms",
                 "sdnn_ms", "rmssd_ms", "recorded_h", "analysable_h"):
@@ -412,6 +413,42 @@ def _record_dataset(cleaned: CleanResult, long_categories: np.ndarray, opt: Scan
                      "beta_spectral_band_hz": list(band) if band else [],
                      "removed": json.dumps(qd["removed"]), "record_id": rec.record_id})
     return ds
+
+
+def _consequence_vars(assessment) -> dict:
+    """The measured effect of the level changes on the FFT slope and the block intervals
+    (:mod:`tfhrv.analysis.consequence`)."""
+    nan = float("nan")
+    e = assessment.effect
+    ch = assessment.verdict.checks
+    out = {
+        "nonstationary_share": ((), float(ch.get("nonstationary_share", nan)), {
+            "units": "1", "long_name": "share of analysable long-tier windows whose "
+            "stationarity category is not stationary"}),
+        "level_effect": ((), e.effect if e is not None else nan, {
+            "units": "1", "long_name": "change of the whole-record FFT beta when the largest "
+            "level changes are regressed out, beyond a power-law null (beta units)"}),
+        "level_effect_ci": (("bound",), np.asarray(e.ci if e is not None else (nan, nan)), {
+            "units": "1", "long_name": "95 % interval of level_effect under the power-law "
+            "null"}),
+        "level_change_time": (("level_change",), np.asarray(
+            e.change_s if e is not None else (), float), {
+            "units": "s", "long_name": "time of each regressed-out level change from the "
+            "start of the resampled series"}),
+        "level_change_step": (("level_change",), np.asarray(
+            e.step_ms if e is not None else (), float), {
+            "units": "ms", "long_name": "size of each regressed-out level change"}),
+    }
+    for name in EXPONENTS:
+        b = assessment.block.get(name)
+        method = b.method if b is not None else "none"
+        out[name + "_block_se"] = ((), b.se if b is not None else nan, {
+            "units": "1", "long_name": f"standard error of {name} over 4-h blocks "
+            f"({method}; heterogeneity through the day included)"})
+        out[name + "_block_ci"] = (("bound",), np.asarray(b.ci if b is not None
+                                                          else (nan, nan)), {
+            "units": "1", "long_name": f"95 % interval of {name} over 4-h blocks ({method})"})
+    return out
 
 
 _CURVE_AXES = {"Hz": ("log10 frequency", "Hz"), "beats": ("log10 box size", "beats"),
