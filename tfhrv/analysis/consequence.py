@@ -141,8 +141,10 @@ def _slope(y: np.ndarray, band: tuple[float, float], fs: float) -> float:
     """Raw log-binned periodogram slope (beta) of an even series; lack-of-fit skipped."""
     n = y.size
     p = periodogram_psd(y, fs_hz=fs, nfft=sp_fft.next_fast_len(n, real=True))
-    return float(spectral_exponent(p.frequency_hz, p.psd, band=band, duration_s=n / fs,
-                                   n_obs=n).exponent)
+    # only ordinates up to the band's top enter the log bins: cut the rest (same fit)
+    top = int(np.searchsorted(p.frequency_hz, band[1] * 1.01)) + 1
+    return float(spectral_exponent(p.frequency_hz[:top], p.psd[:top], band=band,
+                                   duration_s=n / fs, n_obs=n).exponent)
 
 
 def fill_gaps(value: np.ndarray, gap: np.ndarray, /) -> np.ndarray:
@@ -251,11 +253,13 @@ def level_steps(value: np.ndarray, /, *, fs_hz: float = 1.0, n_changes: int = 2,
 
 def _null_series(n: int, beta: float, seed: int) -> np.ndarray:
     """Unit-variance power-law noise: fGn (Davies & Harte 1987) for beta < 1, else
-    Timmer & König (1995) 1/f^beta noise."""
+    Timmer & König (1995) 1/f^beta noise, generated at a fast FFT length >= n and cut to
+    n (a 24-h record at 1 Hz, 86 401 samples, is a slow FFT length)."""
+    m = sp_fft.next_fast_len(int(n), real=True)
     if beta < 1.0:
-        x = fgn(n, (min(max(beta, -0.9), 0.999) + 1.0) / 2.0, rng=seed)
+        x = fgn(m, (min(max(beta, -0.9), 0.999) + 1.0) / 2.0, rng=seed)[:n]
     else:
-        x = powerlaw_noise(n, min(beta, 3.0), rng=seed)
+        x = powerlaw_noise(m, min(beta, 3.0), rng=seed)[:n]
     return (x - x.mean()) / x.std()
 
 
