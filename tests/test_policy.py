@@ -42,7 +42,7 @@ def test_clean_record_is_fit():
         ({"longest_gap_s": 2 * 3600.0}, "gap"),  # a two-hour unreadable stretch
         ({"coverage": 0.6}, "coverage"),
         ({"ectopic_share": 0.2}, "ectopy"),
-        ({"nonstationary_share": 0.8, "level_effect": 0.2, "level_effect_ci": (0.1, 0.3)},
+        ({"nonstationary_share": 0.8, "level_effect": 0.3, "level_effect_ci": (0.2, 0.4)},
          "level changes"),
         ({"duration_s": 4 * 3600.0}, "duration"),
         ({"lack_of_fit_pvalue": 1e-5, "excess_scatter": 0.2}, "linearity"),
@@ -89,11 +89,17 @@ def test_nonstationary_share_alone_is_a_caution_stating_the_measured_effect():
     assert v.verdict == "fit-with-cautions"
     assert v.cautions == ("stationarity: drift in 70 % of 4-h windows; regressing out the "
                           "level changes moves the FFT beta by +0.04 [-0.05, +0.13], inside "
-                          "its interval",)
-    # the same effect beyond the 0.10 margin (one calibrated SE; Bigger et al. 1996 group
-    # difference) is unfit whatever the share
-    v = fitness_verdict(**{**GOOD, "level_effect": -0.15, "level_effect_ci": (-0.25, -0.05)})
+                          "its interval (+/-0.20)",)
+    # an effect beyond the half-width of the calibrated interval of the FFT beta (1.96 SE;
+    # 0.2 when the SE is unknown) is unfit whatever the share
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.25, "level_effect_ci": (-0.35, -0.15)})
     assert v.verdict == "unfit" and v.reasons[0].startswith("level changes")
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.15, "level_effect_ci": (-0.25, -0.05),
+                           "beta_spectral_se": 0.05})
+    assert v.verdict == "unfit" and "+/-0.10" in v.reasons[0]
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.15, "level_effect_ci": (-0.25, -0.05),
+                           "beta_spectral_se": 0.11})
+    assert v.verdict == "fit"
     # unknown effect where the record drifts: said so
     v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7})
     assert any("could not be" in c for c in v.cautions)

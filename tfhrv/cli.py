@@ -89,7 +89,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
         raise ValueError("inspect needs a recording file (or --explain alone)")
     thresholds = FitnessThresholds(
         max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
-        max_ectopic=args.max_ectopic / 100.0, max_level_effect=args.max_level_effect,
+        max_ectopic=args.max_ectopic / 100.0, level_effect_ses=args.level_effect_ses,
         caution_nonstationary=args.max_nonstationary / 100.0)
     ins = inspect_record(clean(_read(args)), thresholds=thresholds)
     if args.json:
@@ -306,9 +306,10 @@ def build_parser() -> argparse.ArgumentParser:
                    help="analysable share, %% (75; Task Force 1996 asks for 18 of 24 h)")
     g.add_argument("--max-ectopic", type=float, default=10.0,
                    help="non-sinus beats, %% (10; common practice)")
-    g.add_argument("--max-level-effect", type=float, default=0.10,
-                   help="change of the FFT beta when the level changes are regressed "
-                   "out (0.10; about one calibrated SE, Bigger et al. 1996 group difference)")
+    g.add_argument("--level-effect-ses", type=float, default=1.96,
+                   help="change of the FFT beta when the level changes are regressed out, "
+                   "in calibrated SEs of the record's FFT beta (1.96: the half-width of its "
+                   "95 %% interval)")
     g.add_argument("--max-nonstationary", type=float, default=25.0,
                    help="non-stationary long windows, %%, above which a caution states the "
                    "measured effect (25; common practice; the share alone is never unfit)")

@@ -162,7 +162,10 @@ def record_outcome(rec: Recording) -> Verdict:
 
 # ------------------------------------------------------------ records with day/night change
 
-DISTORTION_MARGIN = 0.10  # FitnessThresholds.max_level_effect
+def distortion_margin(v: Verdict) -> float:
+    """The verdict's margin for the level-change effect on this record (half-width of the
+    calibrated 95 % interval of its FFT beta); the truth is judged against the same."""
+    return float(v.checks["level_effect_margin"])
 
 
 def _day_night(t: np.ndarray, onset_s: float, night_s: float, ramp_s: float) -> np.ndarray:
@@ -228,7 +231,7 @@ def unfit_for_level_changes(v: Verdict) -> bool:
 
 def _agrees(out: object) -> bool:
     v, dist = out  # type: ignore[misc]
-    return unfit_for_level_changes(v) == (abs(dist) > DISTORTION_MARGIN)
+    return unfit_for_level_changes(v) == (abs(dist) > distortion_margin(v))
 
 
 def distortion_families() -> list[Family]:
@@ -244,12 +247,12 @@ def distortion_families() -> list[Family]:
         for night in (50.0, 150.0, 250.0):
             fams.append(Family(
                 f"night +{night:g} ms, beta={beta:g}", "distortion",
-                "unfit for level changes iff |distortion| > 0.10", "agreement", None,
+                "unfit for level changes iff |distortion| > margin", "agreement", None,
                 lambda s, b=beta, m=night: distortion_outcome(b, m, 1.0, s), _agrees))
     for beta, sd in ((1.0, 0.6), (1.0, 1.5)):
         fams.append(Family(
             f"night SD x{sd:g} +100 ms, beta={beta:g}", "distortion",
-            "unfit for level changes iff |distortion| > 0.10", "agreement", None,
+            "unfit for level changes iff |distortion| > margin", "agreement", None,
             lambda s, b=beta, z=sd: distortion_outcome(b, 100.0, z, s), _agrees))
     return fams
 
@@ -366,8 +369,9 @@ def record_families() -> list[Family]:
     return fams
 
 
-__all__ = ["ALARMS", "CATEGORIES", "DISTORTION_MARGIN", "Family", "background",
-           "distortion_families", "distortion_outcome", "inject", "raw_fft_slope",
+__all__ = ["ALARMS", "CATEGORIES", "Family", "background",
+           "distortion_families", "distortion_margin", "distortion_outcome", "inject",
+           "raw_fft_slope",
            "timed_record", "unfit_for_level_changes",
            "record", "record_families", "record_outcome", "window_category",
            "window_families"]
