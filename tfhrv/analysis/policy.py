@@ -205,7 +205,9 @@ class FitnessThresholds:
     - ``max_beta_disagreement`` = 0.10: the FFT and wavelet betas disagree when the 95 %
       interval of their difference (calibrated SEs, :func:`tfhrv.analysis.consequence.
       difference_interval`) excludes 0 (caution) and lies wholly more than 0.10 from 0
-      (unfit; the same margin as above).  When an SE is unknown the interval half-width
+      (unfit; 0.10 is the published difference in mean beta between healthy people and
+      patients after myocardial infarction, about 1.06 vs 1.15, Bigger et al. 1996, from
+      memory).  When an SE is unknown the interval half-width
       falls back to ``fallback_disagreement`` = 0.3 (about three calibrated SEs of a
       24-h estimate; common practice).
     - ``motion_beta`` = 1.5: wavelet beta above which the record is a motion (fBm-like)
@@ -313,7 +315,8 @@ RULES: tuple[Rule, ...] = (
          "agreement: FFT beta {beta_spectral:.2f} vs wavelet beta {beta_wavelet:.2f}, "
          "difference {beta_difference:+.2f} [{difference_lo:+.2f}, {difference_hi:+.2f}] "
          "(wholly beyond +/-{limit:.2f})",
-         "interval of the difference (calibrated SEs); the 0.10 margin as for level changes"),
+         "interval of the difference (calibrated SEs); 0.10 from Bigger et al. 1996 "
+         "(group difference, from memory)"),
     Rule("agreement", "disagreement_caution", "zero", None, "high",
          "agreement: FFT beta {beta_spectral:.2f} vs wavelet beta {beta_wavelet:.2f}, "
          "difference {beta_difference:+.2f} [{difference_lo:+.2f}, {difference_hi:+.2f}] "

@@ -352,14 +352,17 @@ def _effect_text(rec: xr.Dataset | None) -> str:
         "level_change_step" in rec else np.array([])
     share = float(rec["nonstationary_share"].values) if "nonstationary_share" in rec \
         else float("nan")
+    checks = _json(_verdict_attrs(rec).get("checks", ""), {})
+    margin = float(checks.get("level_effect_margin", float("nan"))) \
+        if isinstance(checks, dict) else float("nan")
     out = "<h3>Measured effect of the non-stationarity on the FFT slope</h3>"
     if np.isfinite(eff):
         out += (f"<p>Regressing out the {steps.size} largest level changes "
                 f"({_e(', '.join(f'{v:+.0f} ms' for v in steps))}) moves the whole-record FFT "
                 f"beta by <strong>{eff:+.2f}</strong> (95 % interval under a power-law null "
                 f"{ci[0]:+.2f} to {ci[1]:+.2f}); the record is unfit when this exceeds "
-                "&plusmn;0.10 (about one calibrated SE; the published healthy vs "
-                "post-infarction difference in beta). "
+                f"&plusmn;{margin:.2f}, the half-width of the calibrated 95 % interval of "
+                "its FFT beta. "
                 + (f"{100 * share:.0f} % of the 4-h windows drift." if np.isfinite(share)
                    else "") + "</p>")
     else:
