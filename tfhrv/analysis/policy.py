@@ -606,11 +606,12 @@ def _block_intervals(nn: np.ndarray, tt: np.ndarray, fits: dict, even, band, ord
     the DFA exponents, whose scales fit inside a block, and the delete-a-block jackknife
     (Künsch 1989) for the wavelet and FFT betas, whose coarsest scales do not."""
     out: dict = {name: None for name in RECORD_PRESETS}
-    edges = np.arange(tt[0], tt[-1] + BLOCK_S / 2, BLOCK_S)
+    # 4-h blocks by beat time; a last block shorter than half a block joins the one before
+    edges = np.append(np.arange(tt[0], tt[-1], BLOCK_S), np.inf)
     idx = np.searchsorted(tt, edges)
-    parts = [(int(a), int(b)) for a, b in zip(idx[:-1], idx[1:], strict=False) if b - a > 0]
-    if len(parts) >= 3 and (parts[-1][1] - parts[-1][0]) * 2 < (parts[0][1] - parts[0][0]):
-        a, _ = parts.pop()
+    parts = [(int(a), int(b)) for a, b in zip(idx[:-1], idx[1:], strict=True) if b - a > 0]
+    if len(parts) >= 2 and tt[-1] - tt[parts[-1][0]] < BLOCK_S / 2:
+        parts.pop()
         parts[-1] = (parts[-1][0], tt.size)
     dfa_names = ("alpha1", "alpha2", "alpha_long")
     per_block = {n: [] for n in dfa_names}
