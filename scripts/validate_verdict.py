@@ -122,6 +122,7 @@ def open_records(folder: str) -> list[str]:
     import csv
 
     from tfhrv.analysis.inspection import inspect_record
+    from tfhrv.calibration.calibrate import interval_text
     from tfhrv.io.readers import read_recording
     from tfhrv.signal.clean import clean
 
@@ -145,7 +146,7 @@ def open_records(folder: str) -> list[str]:
         eff = f"{e.effect:+.2f} [{e.ci[0]:+.2f}, {e.ci[1]:+.2f}]" if e is not None else "n/a"
         f, b = a.fits["beta_spectral"], a.block.get("beta_spectral")
         fb = "n/a" if f is None else (
-            f"{f.exponent:.2f} ({f.ci[0]:.2f}-{f.ci[1]:.2f}; "
+            f"{f.exponent:.2f} ({interval_text(*f.ci).strip('[]').replace(', ', '-')}; "
             + (f"{b.ci[0]:.2f}-{b.ci[1]:.2f})" if b is not None else "n/a)"))
         w = a.fits["beta_wavelet"]
         wb = "n/a" if w is None else f"{w.exponent:.2f}"
