@@ -39,6 +39,9 @@ def test_inspect_prints_quality(tmp_path, capsys):
     data = json.loads(capsys.readouterr().out)
     assert data["quality"]["n_intervals"] == 6002
     assert data["start_kind"] == "timestamp"
+    # keys of the measured effect and of the block intervals exist (None where the record
+    # is too short for them; this one is 1.3 h)
+    assert "level_change_effect" in data and "block_intervals" in data
 
 
 @pytest.mark.parametrize(

@@ -102,8 +102,8 @@ def test_offsets_in_timestamps_are_kept_per_beat(tmp_path):
 
 
 def test_scan_clock_hour_and_root_attributes(tmp_path):
-    from tfhrv.analysis.windows import LONG, SHORT
     from tfhrv.analysis.pipeline import ScanOptions
+    from tfhrv.analysis.windows import LONG, SHORT
     from tfhrv.dataset.build import scan
     from tfhrv.signal.clean import clean
 

@@ -149,6 +149,14 @@ def test_study_table_carries_tree_values(sequential, study_dir):
                                        rec[name + "_ci"].values, rtol=0, atol=0)
         for name in ("nn_sd_ms", "rmssd_ms", "coverage", "longest_gap_s"):
             assert row[name] == float(rec[name])
+        # the measured effect of the level changes and the block intervals (issue 15)
+        for name in ("level_effect", "nonstationary_share"):
+            np.testing.assert_allclose(row[name], float(rec[name]), rtol=0, atol=0)
+        np.testing.assert_allclose([row["level_effect_ci_lower"], row["level_effect_ci_upper"]],
+                                   rec["level_effect_ci"].values, rtol=0, atol=0)
+        np.testing.assert_allclose([row["alpha1_block_ci_lower"], row["alpha1_block_ci_upper"]],
+                                   rec["alpha1_block_ci"].values, rtol=0, atol=0)
+        assert rec["level_effect"].attrs["long_name"] and rec["alpha1_block_se"].attrs["units"]
         assert row["verdict"] == rec.attrs["verdict"]
     pooled = rhythm[(rhythm["day"] == "all") & (rhythm["variable"] == "alpha1")].iloc[0]
     assert row["alpha1_day"] == pooled["day_mean"]

@@ -42,7 +42,8 @@ def test_clean_record_is_fit():
         ({"longest_gap_s": 2 * 3600.0}, "gap"),  # a two-hour unreadable stretch
         ({"coverage": 0.6}, "coverage"),
         ({"ectopic_fraction": 0.2}, "ectopy"),
-        ({"nonstationary_share": 0.8}, "stationarity"),
+        ({"nonstationary_share": 0.8, "level_effect": 0.3, "level_effect_ci": (0.2, 0.4)},
+         "level changes"),
         ({"duration_s": 4 * 3600.0}, "duration"),
         ({"lack_of_fit_pvalue": 1e-5, "excess_scatter": 0.2}, "linearity"),
         ({"beta_spectral": 1.6, "beta_wavelet": 1.0}, "agreement"),
@@ -78,3 +79,63 @@ def test_motion_class_recommends_dfa():
     v = fitness_verdict(**{**GOOD, "beta_spectral": 2.0, "beta_wavelet": 1.9})
     assert v.checks["process_class"] == "fBm"
     assert v.verdict == "fit-with-cautions" and v.recommended == "dfa"
+
+
+def test_nonstationary_share_alone_is_a_caution_stating_the_measured_effect():
+    # issue 15: drift in most 4-h windows with a small measured effect on the slope is a
+    # caution, not unfit; the caution states the effect and its interval
+    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7, "level_effect": 0.04,
+                           "level_effect_ci": (-0.05, 0.13)})
+    assert v.verdict == "fit-with-cautions"
+    assert v.cautions == ("stationarity: drift in 70 % of 4-h windows; regressing out the "
+                          "level changes moves the FFT beta by +0.04 [-0.05, +0.13], inside "
+                          "its interval (+/-0.20)",)
+    # an effect beyond the half-width of the calibrated interval of the FFT beta (1.96 SE;
+    # 0.2 when the SE is unknown) is unfit whatever the share
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.25, "level_effect_ci": (-0.35, -0.15)})
+    assert v.verdict == "unfit" and v.reasons[0].startswith("level changes")
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.15, "level_effect_ci": (-0.25, -0.05),
+                           "beta_spectral_se": 0.05})
+    assert v.verdict == "unfit" and "+/-0.10" in v.reasons[0]
+    v = fitness_verdict(**{**GOOD, "level_effect": -0.15, "level_effect_ci": (-0.25, -0.05),
+                           "beta_spectral_se": 0.11})
+    assert v.verdict == "fit"
+    # unknown effect where the record drifts: said so
+    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7})
+    assert any("could not be" in c for c in v.cautions)
+
+
+def test_agreement_is_judged_against_the_interval_of_the_difference():
+    # difference 0.25 with SEs 0.05 and 0.04: interval [0.12, 0.38] lies beyond 0.10 -> unfit
+    v = fitness_verdict(**{**GOOD, "beta_spectral": 1.25, "beta_wavelet": 1.0,
+                           "beta_spectral_se": 0.05, "beta_wavelet_se": 0.04})
+    assert v.verdict == "unfit" and v.reasons[0].startswith("agreement")
+    # the same difference with SEs 0.11 and 0.07 (a 24-h record): interval includes 0 -> fit
+    v = fitness_verdict(**{**GOOD, "beta_spectral": 1.25, "beta_wavelet": 1.0,
+                           "beta_spectral_se": 0.11, "beta_wavelet_se": 0.07})
+    assert v.verdict == "fit"
+    # excludes 0 but not wholly beyond 0.10 -> caution
+    v = fitness_verdict(**{**GOOD, "beta_spectral": 1.2, "beta_wavelet": 1.0,
+                           "beta_spectral_se": 0.06, "beta_wavelet_se": 0.05})
+    assert v.verdict == "fit-with-cautions" and v.cautions[0].startswith("agreement")
+
+
+def test_rules_table_names_existing_thresholds_and_quantities():
+    from tfhrv.analysis.policy import RULES, FitnessThresholds
+
+    fields = set(FitnessThresholds.__slots__) | {"zero"}
+    for rule in RULES:
+        assert rule.caution in fields | {None} and rule.unfit in fields | {None}
+        assert rule.worse in ("high", "low") and rule.source
+    # every message template formats with the quantities of a record that fails everything
+    bad = {**GOOD, "duration_s": 3600.0, "coverage": 0.5, "longest_gap_s": 7200.0,
+           "ectopic_fraction": 0.3, "nonstationary_share": 0.9, "lack_of_fit_pvalue": 1e-5,
+           "excess_scatter": 0.3, "curvature_pvalue": 1e-5, "beta_spectral": 2.5,
+           "beta_wavelet": 1.6, "level_effect": 0.5, "level_effect_ci": (0.4, 0.6)}
+    v = fitness_verdict(**bad)
+    names = {r.split(":")[0] for r in v.reasons + v.cautions}
+    # (the share caution is left out where the level-change effect is already unfit)
+    assert names == {"duration", "coverage", "gap", "ectopy", "level changes", "linearity",
+                     "agreement", "class"}
+    v = fitness_verdict(**{**bad, "level_effect": 0.05, "level_effect_ci": (-0.05, 0.15)})
+    assert any(c.startswith("stationarity") for c in v.cautions)

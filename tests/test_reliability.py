@@ -251,9 +251,9 @@ def test_safe_file_stem_any_record_id():
 
 
 def _fast_options():
+    from tfhrv.analysis.pipeline import ScanOptions
     from tfhrv.circadian.days import CircadianOptions
     from tfhrv.cohort.run import CohortOptions
-    from tfhrv.analysis.pipeline import ScanOptions
 
     return CohortOptions(scan=ScanOptions(n_surrogates=9), circadian=CircadianOptions(n_boot=99),
                          n_boot=199)

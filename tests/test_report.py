@@ -14,6 +14,7 @@ import json
 from dataclasses import replace
 from html.parser import HTMLParser
 
+import numpy as np
 import pytest
 import xarray as xr
 
@@ -125,6 +126,8 @@ def test_verdict_and_decision_table_from_the_tree(tree, doc):
         assert category in text and rule.reason in text
     assert f"{float(rec['nn_sd_ms']):.1f} ms" in text
     assert f"{float(rec['alpha1']):.2f}" in text
+    if np.isfinite(float(rec["level_effect"])):  # the measured effect is stated (issue 15)
+        assert f"by {float(rec['level_effect']):+.2f}" in text
 
 
 def test_circadian_table_rows(tree, doc):

@@ -78,8 +78,13 @@ def _add_scan_options(p: argparse.ArgumentParser) -> None:
                    help="analysable share, %% (75; Task Force 1996 asks for 18 of 24 h)")
     g.add_argument("--max-ectopic", type=float, default=10.0,
                    help="non-sinus beats, %% (10; common practice)")
-    g.add_argument("--max-nonstationary", type=float, default=50.0,
-                   help="non-stationary long windows, %% (50; common practice)")
+    g.add_argument("--level-effect-ses", type=float, default=1.96,
+                   help="change of the FFT beta when the level changes are regressed out, "
+                   "in calibrated SEs of the record's FFT beta (1.96: the half-width of its "
+                   "95 %% interval)")
+    g.add_argument("--max-nonstationary", type=float, default=25.0,
+                   help="non-stationary long windows, %%, above which a caution states the "
+                   "measured effect (25; common practice; the share alone is never unfit)")
 
 
 def _add_circadian_options(p: argparse.ArgumentParser) -> None:
@@ -172,6 +177,7 @@ _OPTION_RULES = {
     "max_ectopic": (lambda v: _finite(v) and 0 <= v <= 100, "a percentage from 0 to 100"),
     "max_nonstationary": (lambda v: _finite(v) and 0 <= v <= 100,
                           "a percentage from 0 to 100"),
+    "level_effect_ses": (lambda v: _finite(v) and v > 0, "a number > 0"),
     "short_window": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
     "short_hop": (lambda v: _finite(v) and 0 < v <= 1440, "minutes, > 0 and <= 1440"),
     "long_window": (lambda v: _finite(v) and 0 < v <= 168, "hours, > 0 and <= 168"),
@@ -239,7 +245,8 @@ def _scan_options(args: argparse.Namespace):
 
     thresholds = FitnessThresholds(
         max_gap_s=args.max_gap * 60.0, min_coverage=args.min_coverage / 100.0,
-        max_ectopic=args.max_ectopic / 100.0, max_nonstationary=args.max_nonstationary / 100.0)
+        max_ectopic=args.max_ectopic / 100.0, level_effect_ses=args.level_effect_ses,
+        caution_nonstationary=args.max_nonstationary / 100.0)
     return ScanOptions(
         short=replace(SHORT, window_s=args.short_window * 60.0, hop_s=args.short_hop * 60.0),
         long=replace(LONG, window_s=args.long_window * 3600.0, hop_s=args.long_hop * 3600.0),

@@ -36,6 +36,7 @@ import numpy as np
 
 from tfhrv.analysis.policy import Verdict, assess_record
 from tfhrv.analysis.windows import LONG, category_codes, tier_stationarity, tier_windows
+from tfhrv.estimators.presets import estimate
 from tfhrv.signal.clean import clean
 from tfhrv.signal.recording import Recording
 from tfhrv.stationarity.battery import CATEGORIES, stationarity_battery
@@ -151,12 +152,119 @@ def record(*, beta: float = 1.0, hours: float = 24.0, gap_min: float = 0.0,
     return _recording(nn, labels, drop=drop, record_id=f"family-{seed}")
 
 
-def record_outcome(rec: Recording) -> Verdict:
+def record_outcome(rec: Recording, *, battery: bool = True) -> Verdict:
     """Clean, run the long-tier battery and judge the record as ``tfhrv inspect`` does
-    (the verdict's ``checks`` hold the longest gap, ectopic and non-stationary shares)."""
+    (the verdict's ``checks`` hold the longest gap, ectopic and non-stationary shares).
+
+    ``battery=False`` skips the battery (every window counted stationary): four times
+    faster, for tests of rules that do not read the non-stationary share (no unfit rule
+    does; only the share's caution is then missing).
+    """
     cleaned = clean(rec)
-    codes = category_codes(tier_stationarity(tier_windows(cleaned, LONG), seed=INSPECT_SEED))
+    windows = tier_windows(cleaned, LONG)
+    if battery:
+        codes = category_codes(tier_stationarity(windows, seed=INSPECT_SEED))
+    else:
+        codes = np.full(len(windows), CATEGORIES.index("stationary"), dtype=np.int8)
     return assess_record(cleaned, long_categories=codes).verdict
+
+
+# ------------------------------------------------------------ records with day/night change
+
+def distortion_margin(v: Verdict) -> float:
+    """The verdict's margin for the level-change effect on this record (half-width of the
+    calibrated 95 % interval of its FFT beta); the truth is judged against the same."""
+    return float(v.checks["level_effect_margin"])
+
+
+def _day_night(t: np.ndarray, onset_s: float, night_s: float, ramp_s: float) -> np.ndarray:
+    """0 by day, 1 by night, logistic transitions whose 10-90 % rise takes ``ramp_s``."""
+    tau = ramp_s / 4.394  # 10-90 % of a logistic = 2 ln 9 tau
+    with np.errstate(over="ignore"):
+        return (1.0 / (1.0 + np.exp(-(t - onset_s) / tau))
+                - 1.0 / (1.0 + np.exp(-(t - onset_s - night_s) / tau)))
+
+
+def timed_record(*, beta: float, night_ms: float = 0.0, night_sd: float = 1.0,
+                 hours: float = 24.0, seed: int) -> Recording:
+    """A 24-h record whose background is a power law in *time* (1-Hz grid), with an
+    optional night: NN longer by ``night_ms`` and the background SD times ``night_sd``.
+
+    Night starts 5-9 h after the start and lasts 7-9 h; each transition rises (10-90 %)
+    over 20-60 min (the fall of heart rate at sleep onset takes tens of minutes; from
+    memory).  The background is the same function of time with and without the night
+    (same seed), so the change of the FFT slope is due to the injected change alone.
+    """
+    gen = np.random.default_rng(seed + 7727)
+    onset, night, ramp = (gen.uniform(5, 9) * 3600, gen.uniform(7, 9) * 3600,
+                          gen.uniform(1200, 3600))
+    n_s = int(hours * 3600) + 2
+    x = background(n_s, beta, seed)
+    grid = np.arange(n_s, dtype=np.float64)
+    w = _day_night(grid, onset, night, ramp)
+    bg = NN_SD_MS * x * (1.0 + (night_sd - 1.0) * w)
+    level = NN_MEAN_MS + bg + night_ms * w
+    t_end = hours * 3600.0
+    out = []
+    t = 0.0
+    while True:
+        i = int(t)
+        nn = level[i] + (t - i) * (level[i + 1] - level[i])
+        t += nn / 1000.0
+        if t >= t_end:
+            break
+        out.append(nn)
+    nn = np.asarray(out)
+    return _recording(nn, np.full(nn.size, "N"), drop=None, record_id=f"timed-{seed}")
+
+
+def raw_fft_slope(rec: Recording) -> float:
+    """Raw whole-record FFT slope of a record, as the verdict computes it."""
+    cleaned = clean(rec)
+    fit = estimate("beta_spectral_long", cleaned.nn_ms, beat_time_s=cleaned.nn_time_s)
+    return float(fit.exponent)
+
+
+def distortion_outcome(beta: float, night_ms: float, night_sd: float, seed: int, *,
+                       battery: bool = True) -> tuple[Verdict, float]:
+    """The verdict on a record with a night, and the true distortion of its FFT slope
+    (slope with minus without the injected change, same seed)."""
+    rec = timed_record(beta=beta, night_ms=night_ms, night_sd=night_sd, seed=seed)
+    base = timed_record(beta=beta, seed=seed)
+    return (record_outcome(rec, battery=battery),
+            raw_fft_slope(rec) - raw_fft_slope(base))
+
+
+def unfit_for_level_changes(v: Verdict) -> bool:
+    return any(r.startswith("level changes") for r in v.reasons)
+
+
+def _agrees(out: object) -> bool:
+    v, dist = out  # type: ignore[misc]
+    return unfit_for_level_changes(v) == (abs(dist) > distortion_margin(v))
+
+
+def distortion_families() -> list[Family]:
+    """Records with a known consequence of non-stationarity, and power-law nulls."""
+    fams = []
+    for beta in (0.6, 0.8, 1.0, 1.2, 1.4, 1.6):
+        fams.append(Family(
+            f"power-law null 24 h (time), beta={beta:g}", "distortion",
+            "fit or fit-with-cautions", "null", 0.90,
+            lambda s, b=beta: record_outcome(timed_record(beta=b, seed=s)),
+            lambda v: v.verdict in ("fit", "fit-with-cautions")))
+    for beta in (0.8, 1.0, 1.2, 1.4):
+        for night in (50.0, 150.0, 250.0):
+            fams.append(Family(
+                f"night +{night:g} ms, beta={beta:g}", "distortion",
+                "unfit for level changes iff |distortion| > margin", "agreement", None,
+                lambda s, b=beta, m=night: distortion_outcome(b, m, 1.0, s), _agrees))
+    for beta, sd in ((1.0, 0.6), (1.0, 1.5)):
+        fams.append(Family(
+            f"night SD x{sd:g} +100 ms, beta={beta:g}", "distortion",
+            "unfit for level changes iff |distortion| > margin", "agreement", None,
+            lambda s, b=beta, z=sd: distortion_outcome(b, 100.0, z, s), _agrees))
+    return fams
 
 
 # --------------------------------------------------------------------------- the families
@@ -271,6 +379,9 @@ def record_families() -> list[Family]:
     return fams
 
 
-__all__ = ["ALARMS", "CATEGORIES", "Family", "background", "inject",
+__all__ = ["ALARMS", "CATEGORIES", "Family", "background",
+           "distortion_families", "distortion_margin", "distortion_outcome", "inject",
+           "raw_fft_slope",
+           "timed_record", "unfit_for_level_changes",
            "record", "record_families", "record_outcome", "window_category",
            "window_families"]

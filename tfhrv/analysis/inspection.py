@@ -120,6 +120,10 @@ def _inspection_fields(ins: Inspection, rec, start, v) -> dict:
         "quality": cleaned.quality.as_dict(),
         "stationarity": ins.tiers,
         "exponents": {k: _fit_dict(f) for k, f in ins.assessment.fits.items()},
+        "level_change_effect": (ins.assessment.effect.as_dict()
+                                if ins.assessment.effect is not None else None),
+        "block_intervals": {k: (b.as_dict() if b is not None else None)
+                            for k, b in ins.assessment.block.items()},
         "cleaning": {
             "min_ms": cleaned.options.min_ms,
             "max_ms": cleaned.options.max_ms,
@@ -223,6 +227,19 @@ def format_inspection(ins: Inspection, /) -> str:
                        ("alpha1", "alpha1"), ("alpha2", "alpha2"), ("alpha_long", "alpha long")):
         if f[key] is not None and f[key].withheld:
             lines.append(f"  no exponent {label}: {f[key].withheld}")
+    blk = [f"{label} [{b.ci[0]:.2f}, {b.ci[1]:.2f}]" for key, label in (
+        ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
+        ("alpha2", "alpha2"), ("alpha_long", "alpha long"))
+        if (b := a.block.get(key)) is not None and np.isfinite(b.se)]
+    if blk:
+        lines.append("through day   " + "   ".join(blk))
+        lines.append(" " * 14 + "(95 % intervals over 4-h blocks, heterogeneity through the day "
+                     "included: quote these)")
+    e = a.effect
+    if e is not None:
+        lines.append(f"level effect  {e.effect:+.2f} [{e.ci[0]:+.2f}, {e.ci[1]:+.2f}] on the "
+                     f"FFT beta from {len(e.step_ms)} level changes ("
+                     + ", ".join(f"{s:+.0f} ms" for s in e.step_ms) + ")")
     slopes = [f"{label} {f[key].slope_exponent:.2f}" for key, label in (
         ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
         ("alpha2", "alpha2"), ("alpha_long", "alpha long"))

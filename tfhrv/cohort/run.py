@@ -484,7 +484,10 @@ def study_row(tree: xr.DataTree, /) -> dict:
         ``clock`` (timestamp / time-of-day / unknown); the quality summary (:data:`QUALITY`);
         ``verdict`` and ``recommended_estimator`` of the whole-record FFT-slope fitness;
         each whole-record exponent (``beta_spectral``, ``beta_wavelet``, ``alpha1``,
-        ``alpha2``, ``alpha_long``) with ``<name>_ci_lower``/``_ci_upper``;
+        ``alpha2``, ``alpha_long``) with ``<name>_ci_lower``/``_ci_upper`` (calibrated)
+        and ``<name>_block_ci_lower``/``_upper`` (over 4-h blocks);
+        ``nonstationary_share``, ``level_effect`` with ``level_effect_ci_lower``/``_upper``
+        (:func:`tfhrv.analysis.consequence.level_change_effect`);
         ``period_source`` and, per circadian variable (``exponent`` of both tiers is named
         ``exponent_short``/``exponent_long``), ``<v>_day``, ``<v>_night``,
         ``<v>_night_minus_day`` with ``_ci_lower``/``_ci_upper`` (block bootstrap),
@@ -504,6 +507,13 @@ def study_row(tree: xr.DataTree, /) -> dict:
         ci = rec[name + "_ci"].values if name + "_ci" in rec else (np.nan, np.nan)
         row[name + "_ci_lower"], row[name + "_ci_upper"] = float(ci[0]), float(ci[1])
         row[name + "_slope"] = _scalar(rec, name + "_slope")
+        bci = rec[name + "_block_ci"].values if name + "_block_ci" in rec else (np.nan,) * 2
+        row[name + "_block_ci_lower"], row[name + "_block_ci_upper"] = (float(bci[0]),
+                                                                        float(bci[1]))
+    row["nonstationary_share"] = _scalar(rec, "nonstationary_share")
+    row["level_effect"] = _scalar(rec, "level_effect")
+    lci = rec["level_effect_ci"].values if "level_effect_ci" in rec else (np.nan,) * 2
+    row["level_effect_ci_lower"], row["level_effect_ci_upper"] = float(lci[0]), float(lci[1])
     table = (tree["/circadian"].to_dataset().to_dataframe() if "circadian" in tree.children
              else pd.DataFrame(columns=["tier", "variable", "day"]))
     pooled = table[table["day"].astype(str) == "all"]

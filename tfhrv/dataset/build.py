@@ -137,6 +137,7 @@ def _record_dataset(analysis: RecordAnalysis) -> xr.Dataset:
                   "recommended_estimator": verdict.recommended,
                   "checks": json.dumps(verdict.checks, default=float)})
     data["verdict"] = (dims, code, attrs)
+    data.update(_consequence_vars(analysis.assessment))
     qd = q.as_dict()
     for key in ("coverage", "share_kept", "ectopic_fraction", "longest_gap_s", "nn_mean_ms",
                 "nn_sd_ms", "rmssd_ms", "recorded_h", "analysable_h"):
@@ -149,6 +150,35 @@ def _record_dataset(analysis: RecordAnalysis) -> xr.Dataset:
                      "removed": json.dumps(qd["removed"]),
                      "record_id": cleaned.recording.record_id})
     return ds
+
+
+def _consequence_vars(assessment) -> dict:
+    """The measured effect of the level changes on the FFT slope and the block intervals
+    (:mod:`tfhrv.analysis.consequence`)."""
+    g = "/record"
+    nan = float("nan")
+    e = assessment.effect
+    ch = assessment.verdict.checks
+    out = {
+        "nonstationary_share": variable(g, "nonstationary_share",
+                                        float(ch.get("nonstationary_share", nan))),
+        "level_effect": variable(g, "level_effect", e.effect if e is not None else nan),
+        "level_effect_ci": variable(g, "level_effect_ci",
+                                    np.asarray(e.ci if e is not None else (nan, nan))),
+        "level_change_time": variable(g, "level_change_time", np.asarray(
+            e.change_s if e is not None else (), float)),
+        "level_change_step": variable(g, "level_change_step", np.asarray(
+            e.step_ms if e is not None else (), float)),
+    }
+    for name in EXPONENTS:
+        b = assessment.block.get(name)
+        method = b.method if b is not None else "none"
+        out[name + "_block_se"] = variable(g, name + "_block_se", b.se if b is not None else nan)
+        out[name + "_block_se"][2]["method"] = method
+        out[name + "_block_ci"] = variable(g, name + "_block_ci", np.asarray(
+            b.ci if b is not None else (nan, nan)))
+        out[name + "_block_ci"][2]["method"] = method
+    return out
 
 
 def _nn_dataset(cleaned: CleanResult) -> xr.Dataset:

@@ -174,8 +174,27 @@ def _record() -> list[Variable]:
                  "bias-corrected log2 wavelet energy y_j, whole record", required=False),
         Variable("wavelet_y_var", ("octave",), "1", "variance of y_j (Abry & Veitch 1998)",
                  required=False),
+        Variable("nonstationary_share", (), "1", "share of analysable long-tier windows "
+                 "whose stationarity category is not stationary", required=False),
+        Variable("level_effect", (), "1", "change of the whole-record FFT beta when the "
+                 "largest level changes are regressed out, beyond a power-law null "
+                 "(beta units)", required=False),
+        Variable("level_effect_ci", ("bound",), "1",
+                 "95 % interval of level_effect under the power-law null", required=False),
+        Variable("level_change_time", ("level_change",), "s", "time of each regressed-out "
+                 "level change from the start of the resampled series", required=False),
+        Variable("level_change_step", ("level_change",), "ms",
+                 "size of each regressed-out level change", required=False),
     ]
     for name in EXPONENTS:
+        text = _EXPONENT_TEXT[name]
+        out += [
+            Variable(name + "_block_se", (), "1", f"standard error of {text} over 4-h blocks "
+                     "(jackknife or subseries; heterogeneity through the day included)",
+                     required=False),
+            Variable(name + "_block_ci", ("bound",), "1", f"95 % interval of {text} over "
+                     "4-h blocks (jackknife or subseries)", required=False),
+        ]
         fam = _exponent_family(name, (), " (whole record)")
         point = (f"{name}_point",)
         out += [Variable(v.name, v.dims, v.units, v.long_name, required=False) for v in fam]

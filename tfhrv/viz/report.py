@@ -365,6 +365,7 @@ def _verdict(rec: xr.Dataset | None, tree: xr.DataTree | None = None) -> str:
     if band.size == 2:
         out += (f"<p>Band judged: {band[0]:.2g}–{band[1]:.2g} Hz (the classical 24-h "
                 "power-law band, common practice).</p>")
+    out += _effect_text(rec)
     out += "<h3>Reasons (each makes the record unfit)</h3>" + items(reasons)
     out += "<h3>Cautions</h3>" + items(cautions)
     if isinstance(checks, dict) and checks:
@@ -407,6 +408,51 @@ def _check_value(key: str, value) -> str:
         v = float(value)
         return fmt(v) if np.isfinite(v) else "n/a"
     return str(value)
+
+
+def _effect_text(rec: xr.Dataset | None) -> str:
+    """The measured effect of the level changes on the FFT slope, and the block intervals."""
+    if rec is None or "level_effect" not in rec:
+        return ""
+    eff = float(rec["level_effect"].values)
+    ci = np.asarray(rec["level_effect_ci"].values, float)
+    steps = np.asarray(rec["level_change_step"].values, float) if \
+        "level_change_step" in rec else np.array([])
+    share = float(rec["nonstationary_share"].values) if "nonstationary_share" in rec \
+        else float("nan")
+    checks = _json(_verdict_attrs(rec).get("checks", ""), {})
+    margin = float(checks.get("level_effect_margin", float("nan"))) \
+        if isinstance(checks, dict) else float("nan")
+    out = "<h3>Measured effect of the non-stationarity on the FFT slope</h3>"
+    if np.isfinite(eff):
+        out += (f"<p>Regressing out the {steps.size} largest level changes "
+                f"({_e(', '.join(f'{v:+.0f} ms' for v in steps))}) moves the whole-record FFT "
+                f"beta by <strong>{eff:+.2f}</strong> (95 % interval under a power-law null "
+                f"{ci[0]:+.2f} to {ci[1]:+.2f}); the record is unfit when this exceeds "
+                f"&plusmn;{margin:.2f}, the half-width of the calibrated 95 % interval of "
+                "its FFT beta. "
+                + (f"{100 * share:.0f} % of the 4-h windows drift." if np.isfinite(share)
+                   else "") + "</p>")
+    else:
+        out += "<p>The effect could not be measured on this record.</p>"
+    rows = []
+    for name in ("beta_spectral", "beta_wavelet", "alpha1", "alpha2", "alpha_long"):
+        if name + "_block_ci" not in rec or name not in rec:
+            continue
+        b = np.asarray(rec[name + "_block_ci"].values, float)
+        c = np.asarray(rec[name + "_ci"].values, float)
+        if not np.all(np.isfinite(b)):
+            continue
+        rows.append([_e(name), f"{float(rec[name].values):.2f}",
+                     _e(f"{c[0]:.2f} to {c[1]:.2f}"), _e(f"{b[0]:.2f} to {b[1]:.2f}")])
+    if rows:
+        out += ("<p>Two intervals per exponent: the calibrated one assumes one stationary "
+                "process; the block one (4-h blocks: jackknife for the betas, subseries for "
+                "DFA; Künsch 1989, Carlstein 1986) includes how the exponent varies through "
+                "the day. Quote the block interval for a whole-record value.</p>")
+        out += _table(["exponent", "value", "calibrated 95 %", "through the day 95 %"], rows,
+                      numeric={1})
+    return out
 
 
 def _fit_range(rec: xr.Dataset | None, name: str) -> str:
