@@ -21,7 +21,7 @@ from pathlib import Path
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 from tfhrv.analysis.inspection import inspect_record  # noqa: E402
-from tfhrv.analysis.policy import assess_record  # noqa: E402
+from tfhrv.analysis.record import assess_record  # noqa: E402
 from tfhrv.analysis.windows import LONG, SHORT, category_codes, tier_stationarity, tier_windows  # noqa: E402
 from tfhrv.dataset.build import scan  # noqa: E402
 from tfhrv.io.readers import read_recording  # noqa: E402

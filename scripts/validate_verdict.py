@@ -3,7 +3,7 @@ families with a stated expected outcome (``validation.families``).
 
 For every family, R seeds (default 100) are drawn and the observed category (window
 families: one 4-h long-tier window) or verdict (record families: a whole record, judged
-by the long-tier battery and ``tfhrv.analysis.policy.assess_record`` exactly as ``tfhrv inspect``)
+by the long-tier battery and ``tfhrv.analysis.record.assess_record`` exactly as ``tfhrv inspect``)
 is compared with the expectation.  The table gives the share of hits with a 95 % Wilson
 interval, the distribution of outcomes, and PASS/FAIL against the targets:
 
@@ -48,7 +48,7 @@ sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."
 import numpy as np  # noqa: E402
 
 from tfhrv import __version__  # noqa: E402
-from tfhrv.analysis.policy import Verdict  # noqa: E402
+from tfhrv.analysis.verdict import Verdict  # noqa: E402
 from validation.families import (  # noqa: E402
     distortion_families,
     distortion_margin,

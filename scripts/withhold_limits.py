@@ -1,4 +1,4 @@
-"""Measure the DFA RMS departure behind tfhrv.analysis.policy.WITHHOLD_LIMITS.
+"""Measure the DFA RMS departure behind tfhrv.analysis.fits.WITHHOLD_LIMITS.
 
 Prints, per DFA preset, the RMS departure (log10 units, weighted) of log F(n) from its
 fitted line over windows of real records (the open long-term records of
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from tfhrv.analysis.policy import WITHHOLD_LIMITS, _dfa_rms
+from tfhrv.analysis.fits import WITHHOLD_LIMITS, _dfa_rms
 from tfhrv.estimators.presets import estimate
 from tfhrv.io.readers import read_recording
 from tfhrv.signal.clean import clean

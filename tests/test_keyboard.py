@@ -227,7 +227,7 @@ def test_report_number_helpers_drop_negative_zero_and_label_checks():
 
 
 def test_duration_reason_gives_hours():
-    from tfhrv.analysis.policy import fitness_verdict
+    from tfhrv.analysis.verdict import fitness_verdict
 
     v = fitness_verdict(duration_s=74000, band_hz=(1e-4, 1e-2), coverage=0.98,
                         longest_gap_s=20, ectopic_fraction=0.001, nonstationary_share=0.1,

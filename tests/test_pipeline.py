@@ -13,7 +13,7 @@ import pytest
 from tfhrv.analysis import pipeline
 from tfhrv.analysis.inspection import inspect_record, inspection_dict
 from tfhrv.analysis.pipeline import EXPONENTS, ScanOptions, analyse_record
-from tfhrv.analysis.policy import FitnessThresholds
+from tfhrv.analysis.verdict import FitnessThresholds
 from tfhrv.dataset.build import build_tree
 from tfhrv.dataset.schema import validate
 from tfhrv.io.readers import read_recording

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from tfhrv.analysis.policy import DECISION_TABLE, choose_estimator, explain_table, fitness_verdict
+from tfhrv.analysis.policy import DECISION_TABLE, choose_estimator, explain_table
+from tfhrv.analysis.verdict import fitness_verdict
 from tfhrv.stationarity.battery import CATEGORIES
 
 GOOD = dict(duration_s=86400.0, band_hz=(1e-4, 1e-2), coverage=0.98, longest_gap_s=30.0,
@@ -121,7 +122,7 @@ def test_agreement_is_judged_against_the_interval_of_the_difference():
 
 
 def test_rules_table_names_existing_thresholds_and_quantities():
-    from tfhrv.analysis.policy import RULES, FitnessThresholds
+    from tfhrv.analysis.verdict import RULES, FitnessThresholds
 
     fields = set(FitnessThresholds.__slots__) | {"zero"}
     for rule in RULES:

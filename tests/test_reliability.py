@@ -418,7 +418,7 @@ def _on_off_white_noise(rng):
 
 
 def test_no_exponent_for_a_mostly_filled_series(rng):
-    from tfhrv.analysis.policy import calibrated_fit
+    from tfhrv.analysis.fits import calibrated_fit
 
     t, rr = _on_off_white_noise(rng)
     fit = calibrated_fit("beta_spectral_long", rr, beat_time_s=t)
@@ -437,7 +437,7 @@ def test_no_exponent_for_a_mostly_filled_series(rng):
 
 
 def test_no_exponent_for_a_rhythm_without_scaling(rng):
-    from tfhrv.analysis.policy import calibrated_fit, calibrated_fits
+    from tfhrv.analysis.fits import calibrated_fit, calibrated_fits
     from tfhrv.synth import fgn
 
     k = np.arange(3000)

@@ -7,7 +7,7 @@ verdict meet almost surely and a broken one does not.  Seeds differ from the scr
 Sources: background noise is exact fGn (Davies & Harte 1987) or Timmer & Koenig (1995)
 1/f^beta noise; the gap limit (30 min, common practice) and the ectopy limits (Peltola et
 al. 2004 for the caution; common practice for unfit) are documented in
-``tfhrv.analysis.policy.FitnessThresholds``.
+``tfhrv.analysis.verdict.FitnessThresholds``.
 """
 
 from __future__ import annotations

@@ -20,7 +20,7 @@ _LAZY = {
     "InsufficientDataError": "tfhrv.core.errors",
     "RecordFormatError": "tfhrv.core.errors",
     "Recording": "tfhrv.signal.recording",
-    "ScanOptions": "tfhrv.dataset.build",
+    "ScanOptions": "tfhrv.analysis.pipeline",
     "TfhrvWarning": "tfhrv.core.errors",
     "inspect_record": "tfhrv.analysis.inspection",
     "read_recording": "tfhrv.io.readers",

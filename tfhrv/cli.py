@@ -240,7 +240,7 @@ def _scan_options(args: argparse.Namespace):
     from dataclasses import replace
 
     from tfhrv.analysis.pipeline import ScanOptions
-    from tfhrv.analysis.policy import FitnessThresholds
+    from tfhrv.analysis.verdict import FitnessThresholds
     from tfhrv.analysis.windows import LONG, SHORT
 
     thresholds = FitnessThresholds(

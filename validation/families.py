@@ -9,7 +9,7 @@ Two levels:
   :func:`tfhrv.stationarity.battery.stationarity_battery`;
 - record families: whole clean 24-h records (stationary scaling noise), with one gap,
   with ectopic beats, or too short for the 1e-4 Hz band, judged by the same long-tier
-  battery and :func:`tfhrv.analysis.policy.assess_record` as ``tfhrv inspect``.
+  battery and :func:`tfhrv.analysis.record.assess_record` as ``tfhrv inspect``.
 
 Background noise: NN = 800 ms + 50 ms x, x of unit variance; fGn with H = (beta + 1)/2
 (Davies & Harte 1987) for beta < 1 and Timmer-Koenig 1/f^beta noise for beta >= 1
@@ -34,7 +34,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tfhrv.analysis.policy import Verdict, assess_record
+from tfhrv.analysis.record import assess_record
+from tfhrv.analysis.verdict import Verdict
 from tfhrv.analysis.windows import LONG, category_codes, tier_stationarity, tier_windows
 from tfhrv.estimators.presets import estimate
 from tfhrv.signal.clean import clean

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from tfhrv.analysis.pipeline import RecordAnalysis, ScanOptions, analyse_record
-from tfhrv.analysis.policy import RecordAssessment
+from tfhrv.analysis.record import RecordAssessment
 from tfhrv.core.progress import SILENT, Progress
 from tfhrv.signal.clean import CleanResult
 

@@ -21,7 +21,7 @@ from tfhrv.analysis.pipeline import (
     TierAnalysis,
     analyse_record,
 )
-from tfhrv.analysis.policy import VERDICTS
+from tfhrv.analysis.verdict import VERDICTS
 from tfhrv.core.caution import CAUTION
 from tfhrv.core.progress import SILENT, Progress
 from tfhrv.dataset.netcdf import file_sha256

@@ -21,7 +21,8 @@ import numpy as np
 import xarray as xr
 
 from tfhrv.analysis.pipeline import EXPONENTS
-from tfhrv.analysis.policy import ESTIMATORS, VERDICTS
+from tfhrv.analysis.policy import ESTIMATORS
+from tfhrv.analysis.verdict import VERDICTS
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
 from tfhrv.signal.clean import Reason
 from tfhrv.stationarity.battery import CATEGORIES

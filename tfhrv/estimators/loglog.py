@@ -210,7 +210,7 @@ class ScalingFit:
     withheld : str
         Empty when the exponent stands; otherwise a reason code (and text) why the data hold
         no exponent to report (``exponent``, ``se`` and ``ci`` are then NaN; the fitted
-        curve is kept); see :func:`tfhrv.analysis.policy.withhold_reason`.
+        curve is kept); see :func:`tfhrv.analysis.fits.withhold_reason`.
     """
 
     exponent: float
