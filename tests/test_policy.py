@@ -83,14 +83,23 @@ def test_motion_class_recommends_dfa():
 
 
 def test_nonstationary_share_alone_is_a_caution_stating_the_measured_effect():
-    # issue 15: drift in most 4-h windows with a small measured effect on the slope is a
-    # caution, not unfit; the caution states the effect and its interval
-    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7, "level_effect": 0.04,
-                           "level_effect_ci": (-0.05, 0.13)})
+    # issue 15: drift in most 4-h windows with a small but measurable effect on the slope
+    # (interval excludes 0) is a caution, not unfit; the caution states the effect
+    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7, "level_effect": 0.09,
+                           "level_effect_ci": (0.02, 0.16)})
     assert v.verdict == "fit-with-cautions"
     assert v.cautions == ("stationarity: drift in 70 % of 4-h windows; regressing out the "
-                          "level changes moves the FFT beta by +0.04 [-0.05, +0.13], inside "
+                          "level changes moves the FFT beta by +0.09 [+0.02, +0.16], inside "
                           "its interval (+/-0.20)",)
+    # drift that does not measurably move the slope (interval includes 0) is no caution
+    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7, "level_effect": 0.04,
+                           "level_effect_ci": (-0.05, 0.13)})
+    assert v.verdict == "fit" and v.checks["nonstationary_share"] == 0.7
+    # an effect that could not be measured on a drifting record is a caution
+    v = fitness_verdict(**{**GOOD, "nonstationary_share": 0.7, "level_effect": float("nan"),
+                           "level_effect_ci": (float("nan"), float("nan"))})
+    assert v.verdict == "fit-with-cautions"
+    assert any("could not be" in c for c in v.cautions)
     # an effect beyond the half-width of the calibrated interval of the FFT beta (1.96 SE;
     # 0.2 when the SE is unknown) is unfit whatever the share
     v = fitness_verdict(**{**GOOD, "level_effect": -0.25, "level_effect_ci": (-0.35, -0.15)})
@@ -138,5 +147,5 @@ def test_rules_table_names_existing_thresholds_and_quantities():
     # (the share caution is left out where the level-change effect is already unfit)
     assert names == {"duration", "coverage", "gap", "ectopy", "level changes", "linearity",
                      "agreement", "class"}
-    v = fitness_verdict(**{**bad, "level_effect": 0.05, "level_effect_ci": (-0.05, 0.15)})
+    v = fitness_verdict(**{**bad, "level_effect": 0.1, "level_effect_ci": (0.02, 0.18)})
     assert any(c.startswith("stationarity") for c in v.cautions)

@@ -56,10 +56,12 @@ class FitnessThresholds:
       memory) is below what one record can resolve, and agreed with the true
       distortion in only about 80 % of the synthetic records.
     - ``caution_nonstationary`` = 0.25: share of long-tier windows whose category is not
-      stationary above which a caution states the measured effect (common practice).
-      The share alone no longer makes a record unfit: on real 24-h records most 4-h
-      windows drift (sleep, activity) while the slope barely moves (issue 15,
-      ``docs/validation_verdict.md``).
+      stationary above which a caution states the measured effect (common practice),
+      given only when that effect is measurable (its 95 % interval excludes 0) or could
+      not be measured.  The share alone never makes a record unfit, and drift that does
+      not measurably move the slope is not a caution: on real 24-h records most 4-h
+      windows drift (sleep, activity) while the slope barely moves
+      (``docs/validation_verdict.md``), and a caution every record carries tells nothing.
     - ``linearity_alpha`` = 0.01 and ``max_excess_scatter`` = 0.1 (log10 units): the binned
       log-log points depart from one line when the lack-of-fit test against the known
       scatter of log periodogram ordinates (Geweke & Porter-Hudak 1983; Monte-Carlo null,
@@ -164,7 +166,7 @@ RULES: tuple[Rule, ...] = (
          "stationarity: drift in {nonstationary_pct:.0f} % of 4-h windows; regressing out "
          "the level changes moves the FFT beta by {level_effect:+.2f} [{level_lo:+.2f}, "
          "{level_hi:+.2f}], {level_inside}", "common practice (the 25 % share)",
-         applies="effect_within_margin", scale=100.0),
+         applies="effect_measurable_within_margin", scale=100.0),
     Rule("linearity", "lack_of_fit_pvalue", "linearity_alpha", None, "low",
          "linearity: the binned log-log points depart from one line beyond periodogram "
          "scatter (p = {lack_of_fit_pvalue:.2g}, RMS excess {excess_scatter:.2f} decade, "
@@ -307,7 +309,11 @@ def fitness_verdict(
         "curvature_known": bool(np.isfinite(curvature_pvalue)),
         "wavelet_known": bool(np.isfinite(beta_wavelet)),
         "not_disagreeing": not (excess > th.max_beta_disagreement),
-        "effect_within_margin": not (abs(level_effect) > margin),
+        # the drift caution speaks only when the level changes demonstrably move the slope
+        # (its interval excludes 0) or when their effect could not be measured: drift that
+        # moves nothing is reported (checks, inspect's stationarity lines), not a caution
+        "effect_measurable_within_margin": not (abs(level_effect) > margin) and (
+            not np.isfinite(level_effect) or not (lo <= 0.0 <= hi)),
     }
     limits = {f: getattr(th, f) for f in th.__slots__} | {"zero": 0.0}
     reasons: list[str] = []
