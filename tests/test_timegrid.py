@@ -101,6 +101,22 @@ def test_round_trip_identical(small_tree, tmp_path):
     assert not list(tmp_path.glob("*.part"))
 
 
+def test_direct_writer_matches_xarray_h5netcdf_writer(small_tree, tmp_path):
+    # write_tree writes through h5py for speed; xarray's own netCDF-4 writer (h5netcdf
+    # engine) is the independent reference: both files must open to identical trees,
+    # with the same on-disk encodings (dtype, units, fill value) of every variable.
+    ours = write_tree(small_tree, tmp_path / "ours.nc")
+    ref = tmp_path / "ref.nc"
+    small_tree.to_netcdf(ref, engine="h5netcdf")
+    with xr.open_datatree(ours) as a, xr.open_datatree(ref, engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+        for node in b.subtree:
+            for name, var in node.variables.items():
+                got = a[node.path].variables[name].encoding
+                for key in ("dtype", "units", "calendar", "_FillValue", "coordinates"):
+                    assert str(got.get(key)) == str(var.encoding.get(key)), (node.path, name)
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()
