@@ -11,7 +11,9 @@ import os
 # Single-threaded BLAS for the command line: the per-window regressions are small, and on a
 # busy machine multi-threaded OpenBLAS made them 20-30 times slower (measured on 2 cores).
 # Set before numpy is first imported; a user's own setting wins.
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+# The same for the other BLAS/OpenMP libraries numpy may be built with.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 
 import argparse  # noqa: E402
 import json  # noqa: E402
@@ -283,16 +285,29 @@ def _cmd_synth(args: argparse.Namespace) -> int:
     return 0
 
 
+class _VersionAction(argparse.Action):
+    """``--version``: the installed version, looked up only when asked for (reading the
+    package metadata costs about 50 ms, on every command otherwise)."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS,
+                 help="show program's version number and exit"):
+        super().__init__(option_strings, dest=dest, default=default, nargs=0, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        from tfhrv import __version__
+
+        print(f"tfhrv {__version__}")
+        parser.exit()
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every verb."""
-    from tfhrv import __version__
-
     parser = argparse.ArgumentParser(
         prog="tfhrv",
         description="Time-resolved scaling analysis of long heart inter-beat (NN) interval "
         "recordings. " + CAUTION,
     )
-    parser.add_argument("--version", action="version", version=f"tfhrv {__version__}")
+    parser.add_argument("--version", action=_VersionAction)
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     sub = parser.add_subparsers(dest="verb", metavar="VERB", required=True)
 
