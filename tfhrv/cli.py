@@ -98,7 +98,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
         print()
     if args.recording is None:
         raise ValueError("inspect needs a recording file (or --explain alone)")
-    ins = inspect_record(clean(_read(args)), options=_scan_options(args))
+    ins = inspect_record(clean(_read(args)), options=_scan_options(args), workers=_workers())
     if args.json:
         print(json.dumps(inspection_dict(ins), indent=2, default=float))
     else:
@@ -124,6 +124,18 @@ def _scan_options(args: argparse.Namespace):
     )
 
 
+def _workers() -> int:
+    """Processes for the windows of one record: TFHRV_WORKERS if set, else the usable
+    cores (at most 4).  Results do not depend on it."""
+    env = os.environ.get("TFHRV_WORKERS", "").strip()
+    if env:
+        if not env.isdigit() or int(env) < 1:
+            raise ValueError(f"TFHRV_WORKERS must be a positive integer, got {env!r}")
+        return int(env)
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    return max(1, min(4, cores or 1))
+
+
 def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
     from pathlib import Path
 
@@ -144,7 +156,7 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     _check_output(args.output, (".nc",))
     options = _scan_options(args)
     rec = _read(args)
-    tree = scan(clean(rec), options=options)
+    tree = scan(clean(rec), options=options, workers=_workers())
     write_tree(tree, args.output)
     rec_ds = tree["/record"]
     print(f"wrote {args.output}: {tree['/short'].sizes['time']} short and "
@@ -194,7 +206,7 @@ def _pipeline(rec, options, rhythm_options=None):
     from tfhrv.dataset.build import scan
     from tfhrv.signal.clean import clean
 
-    tree = scan(clean(rec), options=options)
+    tree = scan(clean(rec), options=options, workers=_workers())
     ropt = rhythm_options or RhythmOptions()
     table = rhythm_table(tree, options=ropt)
     tree["/rhythm"] = xr.DataTree(rhythm_dataset(table, ropt, tree=tree))

@@ -46,11 +46,13 @@ class Inspection:
                 for name, t in (("short", self.analysis.short), ("long", self.analysis.long))}
 
 
-def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None
-                   ) -> Inspection:
+def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
+                   workers: int = 1) -> Inspection:
     """Run the stationarity battery on every window of both tiers and judge the record
-    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``)."""
-    return Inspection(analyse_record(cleaned, options=options, detail="battery"))
+    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``; ``workers``
+    processes share the windows, without changing the results)."""
+    return Inspection(analyse_record(cleaned, options=options, detail="battery",
+                                     workers=workers))
 
 
 def _fit_dict(fit) -> dict | None:

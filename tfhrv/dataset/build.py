@@ -190,7 +190,8 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
         "/record": _record_dataset(analysis)})
 
 
-def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.DataTree:
+def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None, workers: int = 1
+         ) -> xr.DataTree:
     """Time-resolved scaling analysis of a cleaned recording, as a DataTree.
 
     Parameters
@@ -198,6 +199,9 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
     cleaned : CleanResult
         Output of :func:`tfhrv.signal.clean.clean`.
     options : ScanOptions, optional
+    workers : int, default 1
+        Processes sharing the windows (:func:`~tfhrv.analysis.pipeline.analyse_record`);
+        the results do not depend on it.
 
     Returns
     -------
@@ -205,4 +209,5 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None) -> xr.D
         Groups ``/nn``, ``/short``, ``/long`` and ``/record`` (declared in
         :mod:`tfhrv.dataset.schema`).  Root attributes carry the provenance.
     """
-    return build_tree(analyse_record(cleaned, options=options, detail="full"))
+    return build_tree(analyse_record(cleaned, options=options, detail="full",
+                                     workers=workers))
