@@ -236,7 +236,7 @@ def _cmd_report(args: argparse.Namespace) -> int:
 
     _check_output(args.output, (".html", ".htm"))
     tree, table = _pipeline(_read(args), _scan_options(args))
-    path = write_report(tree, args.output, rhythm_table=table)
+    path = write_report(tree, args.output, rhythm_table=table, workers=_workers())
     if args.scan_output:
         _check_output(args.scan_output, (".nc",))
         write_tree(tree, args.scan_output)

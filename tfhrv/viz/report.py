@@ -527,8 +527,34 @@ def _calibration_model(tree: xr.DataTree) -> str:
     return model if model in _CALIBRATION_TEXT else "powerlaw"
 
 
+#: What forked figure workers read (set just before forking; never pickled).
+_FORK_STATE: dict = {}
+
+
+def _render_one(i: int) -> str:
+    st = _FORK_STATE
+    _, func, alt, cap = st["specs"][i]
+    return _figure(func(st["tree"]), st["dpi"], alt, cap)
+
+
+def _render_figures(tree: xr.DataTree, specs: tuple, dpi: float, workers: int) -> list[str]:
+    """The figures as HTML ``<figure>`` elements, in the order of ``specs``; with
+    ``workers`` > 1 drawn in forked processes (matplotlib's Agg rendering is
+    deterministic, so the PNG bytes are the same as drawn here)."""
+    import multiprocessing as mp
+
+    _FORK_STATE.update(tree=tree, specs=specs, dpi=dpi)
+    try:
+        if workers > 1 and "fork" in mp.get_all_start_methods():
+            with mp.get_context("fork").Pool(min(workers, len(specs))) as pool:
+                return pool.map(_render_one, range(len(specs)), chunksize=1)
+        return [_render_one(i) for i in range(len(specs))]
+    finally:
+        _FORK_STATE.clear()
+
+
 def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = None,
-                 dpi: float = 110.0) -> str:
+                 dpi: float = 110.0, workers: int = 1) -> str:
     """The HTML report of one scan, as a string.
 
     Parameters
@@ -540,6 +566,9 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
         ``tree`` is used when present.
     dpi : float, default 110
         Resolution of the embedded PNG figures.
+    workers : int, default 1
+        Processes drawing the figures (forked, POSIX only); the report does not depend
+        on it.
 
     Returns
     -------
@@ -556,7 +585,7 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
         rhythm_table = tree["rhythm"].to_dataset().to_dataframe().reset_index(drop=True)
     rid = str(tree.attrs.get("record_id", ""))
     caution = _e(CAUTION)
-    figs = {name: _figure(func(tree), dpi, alt, cap) for name, func, alt, cap in (
+    specs = (
         ("overview", plots.overview, "NN intervals and exponent tracks over time",
          "NN intervals (grey), 5-min mean (black), removed beats (ticks), gaps (grey spans), "
          "non-stationary windows (orange strip) and night/rest period (blue); below, α1 of "
@@ -580,7 +609,9 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
          "F(n) with the α1, α2 and long-range lines; below, the local slope."),
         ("logscale", plots.logscale, "wavelet log-scale diagram",
          "y_j with ±1.96 SD bars and the weighted line over the octaves used."),
-    )}
+    )
+    figs = dict(zip((sp[0] for sp in specs), _render_figures(tree, specs, dpi, workers),
+                    strict=True))
     created = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
     refs = "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES)
     calibration = _CALIBRATION_TEXT[_calibration_model(tree)]
@@ -615,7 +646,8 @@ def build_report(tree: xr.DataTree, /, *, rhythm_table: pd.DataFrame | None = No
 
 
 def write_report(tree: xr.DataTree, path: str | Path, /, *,
-                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0) -> Path:
+                 rhythm_table: pd.DataFrame | None = None, dpi: float = 110.0,
+                 workers: int = 1) -> Path:
     """Build the report and write it atomically (temporary file, then ``os.replace``).
 
     Returns
@@ -625,5 +657,5 @@ def write_report(tree: xr.DataTree, path: str | Path, /, *,
     """
     from tfhrv.dataset.netcdf import atomic_write
 
-    text = build_report(tree, rhythm_table=rhythm_table, dpi=dpi)
+    text = build_report(tree, rhythm_table=rhythm_table, dpi=dpi, workers=workers)
     return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
