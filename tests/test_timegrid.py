@@ -216,3 +216,27 @@ def test_calibration_model_is_recorded_and_used():
     assert abs(raw - 1.5) < 0.05  # DFA-1 of a random walk at 4-16 beats: about 1.5
     assert abs(out["fgn-fbm"] - 1.5) < 0.03
     assert out["powerlaw"] < out["fgn-fbm"] - 0.02
+
+
+def test_numpy_only_spares_dask_array_and_then_forgets():
+    # In a fresh interpreter: xarray objects made inside the block do not import
+    # dask.array; after it, a dask array is again wrapped lazily (not computed to numpy),
+    # which is xarray's documented behaviour for dask arrays.
+    code = textwrap.dedent("""
+        import sys
+        import numpy as np
+        import xarray as xr
+        from tfhrv.dataset.netcdf import numpy_only
+        with numpy_only():
+            xr.Dataset({"a": ("x", np.zeros(3))})
+        assert "dask.array" not in sys.modules
+        import dask.array as da
+        v = xr.Variable("x", da.zeros(3))
+        assert isinstance(v.data, da.Array), type(v.data)
+        print("ok")
+    """)
+    pytest.importorskip("dask.array")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.strip() == "ok"

@@ -23,7 +23,7 @@ from tfhrv.analysis.pipeline import (
 )
 from tfhrv.analysis.policy import VERDICTS
 from tfhrv.core.caution import CAUTION
-from tfhrv.dataset.netcdf import file_sha256
+from tfhrv.dataset.netcdf import file_sha256, numpy_only
 from tfhrv.dataset.schema import BANDS, BOUNDS, variable
 from tfhrv.estimators.loglog import ScalingFit
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
@@ -177,17 +177,18 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
         "max_relative_change": cleaned.options.max_relative_change,
         "reference_beats": cleaned.options.reference_beats,
         "gap_min_s": cleaned.options.gap_min_s}}
-    root = xr.Dataset(attrs=provenance(source=rec.source, parameters=params,
-                                       history="tfhrv scan"))
-    root.attrs["record_id"] = rec.record_id
-    root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
-                           else "time-of-day" if rec.start is not None else "unknown")
-    root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
-    return xr.DataTree.from_dict({
-        "/": root, "/nn": _nn_dataset(cleaned),
-        "/short": _tier_dataset(analysis.short, rec.start, "/short"),
-        "/long": _tier_dataset(analysis.long, rec.start, "/long"),
-        "/record": _record_dataset(analysis)})
+    with numpy_only():
+        root = xr.Dataset(attrs=provenance(source=rec.source, parameters=params,
+                                           history="tfhrv scan"))
+        root.attrs["record_id"] = rec.record_id
+        root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
+                               else "time-of-day" if rec.start is not None else "unknown")
+        root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
+        return xr.DataTree.from_dict({
+            "/": root, "/nn": _nn_dataset(cleaned),
+            "/short": _tier_dataset(analysis.short, rec.start, "/short"),
+            "/long": _tier_dataset(analysis.long, rec.start, "/long"),
+            "/record": _record_dataset(analysis)})
 
 
 def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None, workers: int = 1

@@ -19,8 +19,10 @@ more time on both sides than the disk it saves (measured in ``benchmarks/bench_c
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import os
+import sys
 import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -30,7 +32,7 @@ import numpy as np
 if TYPE_CHECKING:  # pragma: no cover
     import xarray as xr
 
-__all__ = ["atomic_write", "file_sha256", "open_tree", "write_tree"]
+__all__ = ["atomic_write", "file_sha256", "numpy_only", "open_tree", "write_tree"]
 
 
 _ENGINE = "h5netcdf"
@@ -67,6 +69,39 @@ def atomic_write(path: str | Path, write) -> Path:
         Path(tmp).unlink(missing_ok=True)
         raise
     return dest
+
+
+@contextlib.contextmanager
+def numpy_only():
+    """While xarray objects are made from numpy arrays only, spare the import of
+    dask.array.
+
+    xarray asks of every array it wraps whether it is a dask array, and to answer imports
+    ``dask.array`` (0.3-1 s on the 2-core machine) even when no dask array exists.  Unless
+    ``dask.array`` is already imported (a dask array may then exist, and nothing is
+    changed), xarray is told for the duration of the block that dask arrays are not
+    available; the note is removed afterwards, so a dask array made later is recognised
+    as usual.  Uses xarray's duck-array module cache (``xarray.namedarray.pycompat``); if
+    that is not there, the block runs unchanged.
+    """
+    cache = absent = None
+    if "dask.array" not in sys.modules:
+        try:
+            from xarray.namedarray import pycompat
+
+            if "dask" not in pycompat._cached_duck_array_modules:
+                absent = pycompat.DuckArrayModule.__new__(pycompat.DuckArrayModule)
+                absent.module, absent.type, absent.available = None, (), False
+                absent.version = pycompat.Version("0.0.0")
+                cache = pycompat._cached_duck_array_modules
+                cache["dask"] = absent
+        except (ImportError, AttributeError):  # pragma: no cover - other xarray versions
+            cache = None
+    try:
+        yield
+    finally:
+        if cache is not None and cache.get("dask") is absent:
+            del cache["dask"]
 
 
 def _attr_value(value):
@@ -149,7 +184,7 @@ def _write_group(h5, ds: xr.Dataset, next_dimid: int) -> int:
 def _write_h5(tree: xr.DataTree, path: Path) -> None:
     import h5py
 
-    with h5py.File(path, "w", track_order=True) as h5:
+    with numpy_only(), h5py.File(path, "w", track_order=True) as h5:
         h5.attrs["_NCProperties"] = np.bytes_(
             f"version=2,tfhrv-h5py={h5py.version.version},hdf5={h5py.version.hdf5_version}")
         next_dimid = 0
