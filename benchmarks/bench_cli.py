@@ -145,7 +145,7 @@ def main() -> None:
         for label, cmd in rows:
             wall, rss, _ = median_run(cmd, args.runs)
             times[label] = wall
-            print(f"{label:<34}{wall:>9.2f}{wall / floor:>9.0f}{rss:>9.0f}")
+            print(f"{label:<34}{wall:>9.2f}{wall / floor:>9.1f}{rss:>9.0f}")
         stages = [list(map(float, run([sys.executable, "-c", STAGES.format(
             path=rec, out=str(tmp / "s.nc"))])[2].split())) for _ in range(args.runs)]
         med = [statistics.median(s[i] for s in stages) for i in range(6)]

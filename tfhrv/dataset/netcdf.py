@@ -213,6 +213,7 @@ def open_tree(path: str | Path, /, *, check: bool = True) -> xr.DataTree:
 
     from tfhrv.dataset.schema import validate
 
-    with xr.open_datatree(path, engine=_ENGINE) as tree:
-        loaded = tree.load()
-    return validate(loaded, path=str(path)) if check else loaded
+    with numpy_only():  # opened without chunks: numpy arrays only
+        with xr.open_datatree(path, engine=_ENGINE) as tree:
+            loaded = tree.load()
+        return validate(loaded, path=str(path)) if check else loaded
