@@ -13,7 +13,7 @@ report <= 4 s, ``tfhrv --help`` and a verb's imports <= 0.4 s, writing the scan 
 <= 0.2 s; 7-day scan <= 12 s and < 1 GB; cohort of 54 records on 2 workers <= 90 s.
 
 Run:  python benchmarks/bench_cli.py [--record PATH] [--runs 5] [--days 1 2 4 7]
-      [--cohort 54]
+      [--cohort 54 | --cohort-dir DIR]
 """
 
 from __future__ import annotations
@@ -30,8 +30,8 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 DEFAULT_RECORD = ROOT.parent / "shared" / "data" / "open-rr" / "nsr2db" / "nsr001.csv.gz"
-ENV = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
-       "MKL_NUM_THREADS": "1"}
+# the user's environment as it is: the command sets its own BLAS thread defaults
+ENV = dict(os.environ)
 TFHRV = [sys.executable, "-m", "tfhrv"]
 
 FLOOR = """
@@ -51,6 +51,7 @@ print(time.perf_counter() - t0)
 STAGES = """
 import time
 t0 = time.perf_counter()
+from tfhrv.cli import _workers  # sets the BLAS thread defaults as the command does
 from tfhrv.analysis.pipeline import analyse_record
 from tfhrv.dataset.build import build_tree
 from tfhrv.dataset.netcdf import write_tree
@@ -59,9 +60,9 @@ from tfhrv.signal.clean import clean
 t1 = time.perf_counter()
 c = clean(read_recording({path!r}))
 t2 = time.perf_counter()
-battery = analyse_record(c, detail="battery")
+battery = analyse_record(c, detail="battery", workers=_workers())
 t3 = time.perf_counter()
-a = analyse_record(c, detail="full")
+a = analyse_record(c, detail="full", workers=_workers())
 t4 = time.perf_counter()
 tree = build_tree(a)
 t5 = time.perf_counter()
@@ -77,6 +78,13 @@ from tfhrv.dataset.netcdf import open_tree
 open_tree({out!r})
 print(time.perf_counter() - t0)
 """
+
+
+def _cli_workers() -> int:
+    sys.path.insert(0, str(ROOT))
+    from tfhrv.cli import _workers
+
+    return _workers()
 
 
 def run(cmd: list[str]) -> tuple[float, float, str]:
@@ -105,6 +113,10 @@ def main() -> None:
     ap.add_argument("--days", type=float, nargs="*", default=[1, 2, 4, 7])
     ap.add_argument("--cohort", type=int, default=0,
                     help="also run a cohort of this many synthetic 24-h records on 2 workers")
+    ap.add_argument("--cohort-dir", type=Path,
+                    help="folder of recordings for the cohort run (default: synthesise "
+                    "--cohort records of 24 h; pre-made records keep synthesis out of the "
+                    "benchmark's own run time)")
     args = ap.parse_args()
     rec = str(args.record)
     tmp = Path(tempfile.mkdtemp(prefix="tfhrv-bench-"))
@@ -120,7 +132,10 @@ def main() -> None:
             ("import for inspect", [sys.executable, "-c",
                                     "import tfhrv.analysis.inspection, tfhrv.io.readers"]),
             ("import for scan", [sys.executable, "-c", "import tfhrv.dataset.build, "
-                                 "tfhrv.dataset.netcdf, tfhrv.io.readers"]),
+                                 "tfhrv.dataset.netcdf, tfhrv.io.readers, h5py"]),
+            ("import for report", [sys.executable, "-c", "import tfhrv.dataset.build, "
+                                   "tfhrv.io.readers, tfhrv.circadian.days, "
+                                   "tfhrv.viz.report, tfhrv.viz.figures"]),
             ("tfhrv inspect REC", [*TFHRV, "inspect", rec]),
             ("tfhrv scan REC -o OUT.nc", [*TFHRV, "scan", rec, "-o", str(tmp / "o.nc")]),
             ("tfhrv report REC -o R.html", [*TFHRV, "report", rec, "-o",
@@ -130,13 +145,14 @@ def main() -> None:
         for label, cmd in rows:
             wall, rss, _ = median_run(cmd, args.runs)
             times[label] = wall
-            print(f"{label:<34}{wall:>9.2f}{wall / floor:>9.0f}{rss:>9.0f}")
+            print(f"{label:<34}{wall:>9.2f}{wall / floor:>9.1f}{rss:>9.0f}")
         stages = [list(map(float, run([sys.executable, "-c", STAGES.format(
             path=rec, out=str(tmp / "s.nc"))])[2].split())) for _ in range(args.runs)]
         med = [statistics.median(s[i] for s in stages) for i in range(6)]
         names = ("imports", "read + clean", "battery (inspect's analysis)",
                  "battery + fits (scan's analysis)", "build tree", "write NetCDF")
-        print("\n# one fresh scan by stage (median)")
+        print(f"\n# one fresh scan by stage (median; windows shared by {_cli_workers()} "
+              "processes, as the command does)")
         for n, v in zip(names, med, strict=True):
             print(f"{n:<34}{v:>9.3f}")
         size = (tmp / "s.nc").stat().st_size / 1e6
@@ -157,16 +173,21 @@ def main() -> None:
                 wall, rss, _ = run([*TFHRV, "scan", str(path), "-o", str(tmp / "d.nc")])
                 print(f"{d:<8g}{n:>10,}{wall:>9.2f}{wall / d:>11.2f}{rss:>9.0f}")
 
-        if args.cohort:
-            src = tmp / "cohort_in"
-            src.mkdir()
-            for i in range(args.cohort):
-                subprocess.run([*TFHRV, "synth", "-o", str(src / f"r{i:03d}.csv.gz"),
-                                "--seed", str(i), "--record-id", f"r{i:03d}"], env=ENV,
-                               check=True, capture_output=True)
+        if args.cohort or args.cohort_dir:
+            if args.cohort_dir:
+                src = args.cohort_dir
+            else:
+                src = tmp / "cohort_in"
+                src.mkdir()
+                for i in range(args.cohort):
+                    subprocess.run([*TFHRV, "synth", "-o", str(src / f"r{i:03d}.csv.gz"),
+                                    "--seed", str(i), "--record-id", f"r{i:03d}"], env=ENV,
+                                   check=True, capture_output=True)
+            n_rec = len(list(Path(src).glob("*.csv.gz")))
+            args.cohort = n_rec
             wall, rss, _ = run([*TFHRV, "cohort", str(src), "-o", str(tmp / "cohort"),
-                                     "--workers", "2"])
-            print(f"\n# cohort of {args.cohort} synthetic 24-h records, 2 local workers")
+                                "--workers", "2"])
+            print(f"\n# cohort of {n_rec} 24-h records ({src.name}), 2 local workers")
             print(f"total {wall:.1f} s; per record {wall / args.cohort:.2f} s (x2 workers = "
                   f"{2 * wall / args.cohort:.2f} s of one core) vs single scan "
                   f"{times['tfhrv scan REC -o OUT.nc']:.2f} s")

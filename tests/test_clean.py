@@ -93,3 +93,18 @@ def test_options_validated():
         CleanOptions(min_ms=900, max_ms=800)
     with pytest.raises(ValueError, match="reference_beats"):
         CleanOptions(reference_beats=1)
+
+
+@pytest.mark.parametrize("size", [3, 4, 11, 12])
+@pytest.mark.parametrize("n", [2, 11, 12, 500, 70_001])
+def test_running_median_equals_scipy_median_filter(n, size):
+    # Reference: scipy.ndimage.median_filter with mirrored ends (independent library);
+    # an order statistic involves no arithmetic, so the values must be equal.
+    from scipy import ndimage
+
+    from tfhrv.signal.clean import _running_median
+
+    gen = np.random.default_rng(n + size)
+    for x in (gen.integers(300, 1500, n).astype(float), gen.random(n)):
+        np.testing.assert_array_equal(_running_median(x, size, block=997),
+                                      ndimage.median_filter(x, size=size, mode="mirror"))

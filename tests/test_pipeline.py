@@ -7,6 +7,8 @@ nsrdb; Goldberger et al., Circulation 2000;101:e215) analysed both ways.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
@@ -71,3 +73,33 @@ def test_unexpected_error_propagates(monkeypatch, rng):
     rr = 800 + 40 * fgn(6000, 0.8, rng=rng)
     with pytest.raises(ZeroDivisionError, match="injected fault"):
         analyse_record(clean(Recording.from_intervals(rr)), detail="full")
+
+
+@pytest.mark.parametrize("detail", ["battery", "full"])
+def test_workers_do_not_change_results(monkeypatch, rng, detail):
+    # Every window is analysed by the same code with its own seed whichever process runs
+    # it: the serial analysis is the reference, and the forked one must equal it exactly.
+    from tfhrv.signal.recording import Recording
+
+    if "fork" not in __import__("multiprocessing").get_all_start_methods():
+        pytest.skip("no fork start method")
+    monkeypatch.setattr(pipeline, "_MIN_PARALLEL_BEATS", 0)
+    rr = 800 + 40 * fgn(6000, 0.8, rng=rng)
+    options = ScanOptions(long=replace(pipeline.LONG, window_s=1800.0, hop_s=900.0))
+    cleaned = clean(Recording.from_intervals(rr))
+    a = analyse_record(cleaned, options=options, detail=detail)
+    b = analyse_record(cleaned, options=options, detail=detail, workers=2)
+    assert repr(a.assessment) == repr(b.assessment)
+    for tier in ("short", "long"):
+        ta, tb = getattr(a, tier), getattr(b, tier)
+        assert len(ta.windows) > 1
+        assert repr(ta.battery) == repr(tb.battery)
+        np.testing.assert_array_equal(ta.categories, tb.categories)
+        assert ta.values.keys() == tb.values.keys()
+        for name, va in ta.values.items():
+            vb = tb.values[name]
+            assert va.dtype == vb.dtype and not vb.flags.writeable
+            if va.dtype.kind == "O":
+                assert list(va) == list(vb)
+            else:
+                np.testing.assert_array_equal(va, vb)

@@ -180,3 +180,21 @@ def test_methods_name_the_calibration_model_of_the_scan():
     assert "Brownian motion" in _CALIBRATION_TEXT["fgn-fbm"]
     assert _calibration_model(tree("not json")) == "powerlaw"  # older or damaged files
     assert _calibration_model(tree(json.dumps({"scan": {}}))) == "powerlaw"
+
+
+def test_forked_figures_give_the_same_document(tree, doc):
+    # Reference: the report drawn in this process; drawn by two forked processes it must
+    # hold the same bytes except the build time and the creation timestamp.
+    import multiprocessing
+    import re
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        pytest.skip("no fork start method")
+    other = build_report(tree, dpi=40, workers=2)
+
+    def strip(d):
+        d = re.sub(r"report built [^<]*<", "report built <", d)
+        return re.sub(r"Built in [0-9.]+ s", "Built in s", d)
+
+    assert strip(other) == strip(doc)
+    assert len(re.findall("data:image/png;base64", other)) == 8

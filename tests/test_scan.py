@@ -101,6 +101,22 @@ def test_round_trip_identical(small_tree, tmp_path):
     assert not list(tmp_path.glob("*.part"))
 
 
+def test_direct_writer_matches_xarray_h5netcdf_writer(small_tree, tmp_path):
+    # write_tree writes through h5py for speed; xarray's own netCDF-4 writer (h5netcdf
+    # engine) is the independent reference: both files must open to identical trees,
+    # with the same on-disk encodings (dtype, units, fill value) of every variable.
+    ours = write_tree(small_tree, tmp_path / "ours.nc")
+    ref = tmp_path / "ref.nc"
+    small_tree.to_netcdf(ref, engine="h5netcdf")
+    with xr.open_datatree(ours) as a, xr.open_datatree(ref, engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+        for node in b.subtree:
+            for name, var in node.variables.items():
+                got = a[node.path].variables[name].encoding
+                for key in ("dtype", "units", "calendar", "_FillValue", "coordinates"):
+                    assert str(got.get(key)) == str(var.encoding.get(key)), (node.path, name)
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()
@@ -200,3 +216,27 @@ def test_calibration_model_is_recorded_and_used():
     assert abs(raw - 1.5) < 0.05  # DFA-1 of a random walk at 4-16 beats: about 1.5
     assert abs(out["fgn-fbm"] - 1.5) < 0.03
     assert out["powerlaw"] < out["fgn-fbm"] - 0.02
+
+
+def test_numpy_only_spares_dask_array_and_then_forgets():
+    # In a fresh interpreter: xarray objects made inside the block do not import
+    # dask.array; after it, a dask array is again wrapped lazily (not computed to numpy),
+    # which is xarray's documented behaviour for dask arrays.
+    code = textwrap.dedent("""
+        import sys
+        import numpy as np
+        import xarray as xr
+        from tfhrv.dataset.netcdf import numpy_only
+        with numpy_only():
+            xr.Dataset({"a": ("x", np.zeros(3))})
+        assert "dask.array" not in sys.modules
+        import dask.array as da
+        v = xr.Variable("x", da.zeros(3))
+        assert isinstance(v.data, da.Array), type(v.data)
+        print("ok")
+    """)
+    pytest.importorskip("dask.array")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.strip() == "ok"

@@ -7,13 +7,19 @@ re-exported: the name ``tfhrv.signal.clean`` is its module).
 
 from __future__ import annotations
 
+from functools import cache
 from importlib import import_module
-from importlib.metadata import PackageNotFoundError, version
 
-try:
-    __version__ = version("tfhrv")
-except PackageNotFoundError:  # pragma: no cover - running from a source tree
-    __version__ = "0.0.0"
+
+@cache
+def _version() -> str:
+    # importlib.metadata costs about 50 ms to import: asked for only when needed
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("tfhrv")
+    except PackageNotFoundError:  # pragma: no cover - running from a source tree
+        return "0.0.0"
 
 _LAZY = {
     "CleanOptions": "tfhrv.signal.clean",
@@ -32,6 +38,8 @@ __all__ = sorted([*_LAZY, "__version__"])
 
 
 def __getattr__(name: str):
+    if name == "__version__":
+        return _version()
     if name in _LAZY:
         return getattr(import_module(_LAZY[name]), name)
     raise AttributeError(f"module 'tfhrv' has no attribute {name!r}")

@@ -11,7 +11,9 @@ import os
 # Single-threaded BLAS for the command line: the per-window regressions are small, and on a
 # busy machine multi-threaded OpenBLAS made them 20-30 times slower (measured on 2 cores).
 # Set before numpy is first imported; a user's own setting wins.
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+# The same for the other BLAS/OpenMP libraries numpy may be built with.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 
 import argparse  # noqa: E402
 import sys  # noqa: E402
@@ -228,7 +230,8 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     progress.stage(f"read {args.recording}")
     rec = _read(args)
     progress.stage("clean")
-    ins = inspect_record(_clean(rec, args), options=_scan_options(args), progress=progress)
+    ins = inspect_record(_clean(rec, args), options=_scan_options(args), progress=progress,
+                         workers=_workers())
     if args.json:
         print(dumps_strict(inspection_dict(ins), indent=2))
     else:
@@ -255,6 +258,18 @@ def _scan_options(args: argparse.Namespace):
     )
 
 
+def _workers() -> int:
+    """Processes for the windows of one record: TFHRV_WORKERS if set, else the usable
+    cores (at most 4).  Results do not depend on it."""
+    env = os.environ.get("TFHRV_WORKERS", "").strip()
+    if env:
+        if not env.isdigit() or int(env) < 1:
+            raise ValueError(f"TFHRV_WORKERS must be a positive integer, got {env!r}")
+        return int(env)
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    return max(1, min(4, cores or 1))
+
+
 def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
     from pathlib import Path
 
@@ -274,7 +289,7 @@ def _scan_recording(rec, options, progress, *, args: argparse.Namespace, what: s
     progress.stage("clean")
     cleaned = _clean(rec, args)
     _check_long_enough(cleaned, options, what=what)
-    return scan(cleaned, options=options, progress=progress)
+    return scan(cleaned, options=options, progress=progress, workers=_workers())
 
 
 def _check_long_enough(cleaned, options, *, what: str) -> None:
@@ -451,7 +466,8 @@ def _cmd_report(args: argparse.Namespace) -> int:
                             _sleep_log(args, rec.record_id), args=args)
     with OutputSet() as out:  # the report and the scan file, or neither
         path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
-                            progress=progress, started=_STARTED, outputs=out)
+                            progress=progress, started=_STARTED, outputs=out,
+                            workers=_workers())
         if args.scan_output:
             progress.stage(f"write {args.scan_output}")
             write_tree(tree, args.scan_output, outputs=out)
@@ -534,16 +550,29 @@ def _cmd_synth(args: argparse.Namespace) -> int:
     return 0
 
 
+class _VersionAction(argparse.Action):
+    """``--version``: the installed version, looked up only when asked for (reading the
+    package metadata costs about 50 ms, on every command otherwise)."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS,
+                 help="show program's version number and exit"):
+        super().__init__(option_strings, dest=dest, default=default, nargs=0, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        from tfhrv import __version__
+
+        print(f"tfhrv {__version__}")
+        parser.exit()
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every verb."""
-    from tfhrv import __version__
-
     parser = argparse.ArgumentParser(
         prog="tfhrv",
         description="Time-resolved scaling analysis of long heart inter-beat (NN) interval "
         "recordings. " + CAUTION,
     )
-    parser.add_argument("--version", action="version", version=f"tfhrv {__version__}")
+    parser.add_argument("--version", action=_VersionAction)
     parser.add_argument("--debug", action="store_true", help="show tracebacks on errors")
     sub = parser.add_subparsers(dest="verb", metavar="VERB", required=True)
 

@@ -48,14 +48,15 @@ class Inspection:
 
 
 def inspect_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
-                   progress: Progress = SILENT) -> Inspection:
+                   progress: Progress = SILENT, workers: int = 1) -> Inspection:
     """Run the stationarity battery on every window of both tiers and judge the record
-    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``).
+    (:func:`~tfhrv.analysis.pipeline.analyse_record` with ``detail="battery"``; ``workers``
+    processes share the windows, without changing the results).
 
     ``progress`` (default: silent) is told each window and the whole-record stage.
     """
     return Inspection(analyse_record(cleaned, options=options, detail="battery",
-                                     progress=progress))
+                                     progress=progress, workers=workers))
 
 
 def _fit_dict(fit) -> dict | None:

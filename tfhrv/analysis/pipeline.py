@@ -25,10 +25,15 @@ from typing import Literal
 
 import numpy as np
 
-from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
-from tfhrv.analysis.policy import ESTIMATORS, choose_estimator
-from tfhrv.analysis.record import RecordAssessment, assess_record
-from tfhrv.analysis.verdict import FitnessThresholds
+from tfhrv.analysis.policy import (
+    ESTIMATORS,
+    RECORD_PRESETS,
+    FitnessThresholds,
+    RecordAssessment,
+    assess_record,
+    calibrated_fits,
+    choose_estimator,
+)
 from tfhrv.analysis.windows import (
     LONG,
     SHORT,
@@ -40,7 +45,7 @@ from tfhrv.analysis.windows import (
 )
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.progress import SILENT, Progress
-from tfhrv.core.validation import check_choice
+from tfhrv.core.validation import check_choice, check_int
 from tfhrv.estimators.dfa import Fluctuation, dfa_fluctuation, local_slopes
 from tfhrv.estimators.loglog import ScalingFit, convert_exponent
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS, band_powers, periodogram_psd
@@ -290,23 +295,58 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
         v["wavelet_energy"][w, :m] = diag.energy[:m]
 
 
+def _band_ok(tier: TierSpec) -> np.ndarray:
+    # Task Force 1996: a band needs about 10 periods of its lower limit; ULF needs 24 h.
+    return np.array([tier.window_s >= 10.0 / lo if lo > 0 else False
+                     for lo, _ in TASK_FORCE_BANDS.values()])
+
+
+def _tier_grids_of(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions) -> tuple:
+    keep = cleaned.keep
+    mean_rr = float(np.mean(cleaned.recording.rr_ms[keep])) / 1000.0 if keep.any() else 0.8
+    fs = opt.short_psd_fs_hz if tier.scale == "short" else opt.long_psd_fs_hz
+    return _tier_grids(tier, mean_rr, fs)
+
+
+def _one_window(tier: TierSpec, w: int, win: Window, opt: ScanOptions, grids: tuple,
+                full: bool) -> tuple[StationarityResult | None, dict | None]:
+    """Battery (window ``w`` uses seed ``opt.seed + w``, as tier_stationarity) and, for
+    ``full``, the per-window values of one window as a one-row table."""
+    (st,) = tier_stationarity([win], n_surrogates=opt.n_surrogates, seed=opt.seed + w)
+    if not full:
+        return st, None
+    row = _empty_values(1, *grids)
+    _window_values(row, 0, win, st, tier, opt, grids, _band_ok(tier))
+    return st, row
+
+
+def _assemble_tier(tier: TierSpec, windows: list[Window], results: list, grids: tuple,
+                   full: bool) -> TierAnalysis:
+    battery = [st for st, _ in results]
+    values: dict[str, np.ndarray] = {}
+    if full:
+        values = _empty_values(len(windows), *grids)
+        for w, (_, row) in enumerate(results):
+            for name, arr in values.items():
+                arr[w] = row[name][0]
+        for arr in values.values():
+            arr.flags.writeable = False
+    centres = np.array([win.start_s for win in windows]) + tier.window_s / 2
+    return TierAnalysis(tier, tuple(windows), tuple(battery), category_codes(battery),
+                        centres, *grids, MappingProxyType(values))
+
+
 def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, full: bool,
                   progress: Progress) -> TierAnalysis:
-    rec = cleaned.recording
     windows = tier_windows(cleaned, tier)
     battery = tier_stationarity(windows, n_surrogates=opt.n_surrogates, seed=opt.seed,
                                 progress=progress,
                                 label=f"stationarity battery, {tier.scale} windows")
-    keep = cleaned.keep
-    mean_rr = float(np.mean(rec.rr_ms[keep])) / 1000.0 if keep.any() else 0.8
-    fs = opt.short_psd_fs_hz if tier.scale == "short" else opt.long_psd_fs_hz
-    grids = _tier_grids(tier, mean_rr, fs)
+    grids = _tier_grids_of(cleaned, tier, opt)
     values: dict[str, np.ndarray] = {}
     if full:
         values = _empty_values(len(windows), *grids)
-        # Task Force 1996: a band needs about 10 periods of its lower limit; ULF needs 24 h.
-        band_ok = np.array([tier.window_s >= 10.0 / lo if lo > 0 else False
-                            for lo, _ in TASK_FORCE_BANDS.values()])
+        band_ok = _band_ok(tier)
         rows = progress.track(zip(windows, battery, strict=True), total=len(windows),
                               label=f"fits, {tier.scale} windows")
         for w, (win, st) in enumerate(rows):
@@ -318,8 +358,58 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, ful
                         centres, *grids, MappingProxyType(values))
 
 
+#: What forked workers read (set by the parent just before forking; never pickled).
+_FORK_STATE: dict = {}
+#: Fewest analysable beats over all windows for which forking workers pays (common
+#: practice: below it, process start-up and result transfer cost more than they save).
+_MIN_PARALLEL_BEATS = 20_000
+
+
+def _fork_job(job: tuple[str, int]) -> tuple[str, int, StationarityResult | None, dict | None]:
+    name, w = job
+    st = _FORK_STATE
+    tier = st["tiers"][name]
+    win = st["windows"][name][w]
+    res, row = _one_window(tier, w, win, st["opt"], st["grids"][name], st["full"])
+    return name, w, res, row
+
+
+def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
+                            workers: int, progress: Progress
+                            ) -> tuple[TierAnalysis, TierAnalysis] | None:
+    """Both tiers with the windows shared among ``workers`` forked processes, or None
+    when forking is unavailable or does not pay.  Every window is computed by the same
+    function with the same seed as in the serial path, so results are identical."""
+    import multiprocessing as mp
+
+    if "fork" not in mp.get_all_start_methods():
+        return None
+    tiers = {"short": opt.short, "long": opt.long}
+    windows = {n: tier_windows(cleaned, t) for n, t in tiers.items()}
+    beats = sum(w.n_beats for ws in windows.values() for w in ws if w.analysable)
+    if beats < _MIN_PARALLEL_BEATS:
+        return None
+    grids = {n: _tier_grids_of(cleaned, t, opt) for n, t in tiers.items()}
+    # largest windows first, so that the last jobs to finish are short ones
+    jobs = sorted(((n, w) for n, ws in windows.items() for w in range(len(ws))),
+                  key=lambda j: -windows[j[0]][j[1]].n_beats)
+    _FORK_STATE.update(tiers=tiers, windows=windows, grids=grids, opt=opt, full=full)
+    try:
+        with mp.get_context("fork").Pool(workers) as pool:
+            done = list(progress.track(pool.imap_unordered(_fork_job, jobs, chunksize=4),
+                                       total=len(jobs),
+                                       label=f"windows ({workers} processes)"))
+    finally:
+        _FORK_STATE.clear()
+    results: dict[str, list] = {n: [None] * len(ws) for n, ws in windows.items()}
+    for name, w, res, row in done:
+        results[name][w] = (res, row)
+    return tuple(_assemble_tier(tiers[n], windows[n], results[n], grids[n], full)
+                 for n in ("short", "long"))
+
+
 def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
-                   detail: Literal["battery", "full"] = "full",
+                   detail: Literal["battery", "full"] = "full", workers: int = 1,
                    progress: Progress = SILENT) -> RecordAnalysis:
     """Analyse one cleaned recording: windows, battery, fits, whole-record verdict.
 
@@ -334,6 +424,11 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
         whole-record assessment (what ``tfhrv inspect`` shows); ``"full"`` adds the
         per-window fits, spectra, fluctuation functions and wavelet energies and the
         whole-record curves (what ``tfhrv scan`` writes).
+    workers : int, default 1
+        Processes among which the windows are shared (forked, POSIX only; 1 = this
+        process).  The results do not depend on it: every window is analysed by the same
+        code with its own seed.  The command line uses the available cores for a single
+        record; a cohort keeps 1 per record and runs records in parallel instead.
     progress : tfhrv.core.progress.Progress, optional
         Told each window and stage (default: silent).
 
@@ -344,8 +439,13 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
     check_choice(detail, "detail", ("battery", "full"))
     opt = options or ScanOptions()
     full = detail == "full"
-    short = _analyse_tier(cleaned, opt.short, opt, full=full, progress=progress)
-    long = _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress)
+    workers = check_int(workers, "workers", minimum=1)
+    tiers = (_analyse_tiers_parallel(cleaned, opt, full, workers, progress) if workers > 1
+             else None)
+    if tiers is None:
+        tiers = (_analyse_tier(cleaned, opt.short, opt, full=full, progress=progress),
+                 _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress))
+    short, long = tiers
     progress.stage("whole-record fits and FFT-slope verdict")
     assessment = assess_record(cleaned, long_categories=long.categories,
                                band_hz=opt.record_band_hz, order=opt.dfa_order,

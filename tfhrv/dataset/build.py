@@ -24,7 +24,7 @@ from tfhrv.analysis.pipeline import (
 from tfhrv.analysis.verdict import VERDICTS
 from tfhrv.core.caution import CAUTION
 from tfhrv.core.progress import SILENT, Progress
-from tfhrv.dataset.netcdf import file_sha256
+from tfhrv.dataset.netcdf import file_sha256, numpy_only
 from tfhrv.dataset.schema import BANDS, BOUNDS, variable
 from tfhrv.estimators.loglog import ScalingFit
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
@@ -210,24 +210,27 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
         "max_relative_change": cleaned.options.max_relative_change,
         "reference_beats": cleaned.options.reference_beats,
         "gap_min_s": cleaned.options.gap_min_s}}
-    root = xr.Dataset(attrs=provenance(source=rec.source, parameters=params,
-                                       history="tfhrv scan"))
-    root.attrs["record_id"] = rec.record_id
-    root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
-                           else "time-of-day" if rec.start is not None else "unknown")
-    root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
-    clock = rec.clock
-    root.attrs["time_zone"] = ("" if clock is None else clock.zone or "UTC offsets of the file")
-    root.attrs["utc_offset_changes"] = json.dumps([] if clock is None else clock.changes())
-    return xr.DataTree.from_dict({
-        "/": root, "/nn": _nn_dataset(cleaned),
-        "/short": _tier_dataset(analysis.short, rec, "/short"),
-        "/long": _tier_dataset(analysis.long, rec, "/long"),
-        "/record": _record_dataset(analysis)})
+    with numpy_only():
+        root = xr.Dataset(attrs=provenance(source=rec.source, parameters=params,
+                                           history="tfhrv scan"))
+        root.attrs["record_id"] = rec.record_id
+        root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
+                               else "time-of-day" if rec.start is not None else "unknown")
+        root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
+        clock = rec.clock
+        root.attrs["time_zone"] = ("" if clock is None
+                                   else clock.zone or "UTC offsets of the file")
+        root.attrs["utc_offset_changes"] = json.dumps([] if clock is None
+                                                      else clock.changes())
+        return xr.DataTree.from_dict({
+            "/": root, "/nn": _nn_dataset(cleaned),
+            "/short": _tier_dataset(analysis.short, rec, "/short"),
+            "/long": _tier_dataset(analysis.long, rec, "/long"),
+            "/record": _record_dataset(analysis)})
 
 
 def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
-         progress: Progress = SILENT) -> xr.DataTree:
+         progress: Progress = SILENT, workers: int = 1) -> xr.DataTree:
     """Time-resolved scaling analysis of a cleaned recording, as a DataTree.
 
     Parameters
@@ -237,6 +240,9 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
     options : ScanOptions, optional
     progress : tfhrv.core.progress.Progress, optional
         Told each stage and each window (default: silent).
+    workers : int, default 1
+        Processes sharing the windows (:func:`~tfhrv.analysis.pipeline.analyse_record`);
+        the results do not depend on it.
 
     Returns
     -------
@@ -245,4 +251,4 @@ def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
         :mod:`tfhrv.dataset.schema`).  Root attributes carry the provenance.
     """
     return build_tree(analyse_record(cleaned, options=options, detail="full",
-                                     progress=progress))
+                                     progress=progress, workers=workers))
