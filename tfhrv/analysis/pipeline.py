@@ -25,15 +25,10 @@ from typing import Literal
 
 import numpy as np
 
-from tfhrv.analysis.policy import (
-    ESTIMATORS,
-    RECORD_PRESETS,
-    FitnessThresholds,
-    RecordAssessment,
-    assess_record,
-    calibrated_fits,
-    choose_estimator,
-)
+from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
+from tfhrv.analysis.policy import ESTIMATORS, choose_estimator
+from tfhrv.analysis.record import RecordAssessment, assess_record
+from tfhrv.analysis.verdict import FitnessThresholds
 from tfhrv.analysis.windows import (
     LONG,
     SHORT,
