@@ -270,8 +270,8 @@ def fitness_verdict(
     >>> v = fitness_verdict(duration_s=86400, band_hz=(1e-4, 1e-2), coverage=0.98,
     ...     longest_gap_s=20, ectopic_fraction=0.001, nonstationary_share=0.7, r_squared=0.97,
     ...     curvature_pvalue=0.3, lack_of_fit_pvalue=0.4, excess_scatter=0.0,
-    ...     beta_spectral=1.05, beta_wavelet=1.0, level_effect=0.04,
-    ...     level_effect_ci=(-0.05, 0.13))
+    ...     beta_spectral=1.05, beta_wavelet=1.0, level_effect=0.09,
+    ...     level_effect_ci=(0.02, 0.16))
     >>> v.verdict, v.cautions[0][:42]
     ('fit-with-cautions', 'stationarity: drift in 70 % of 4-h windows')
     """
