@@ -79,3 +79,20 @@ def test_calibration_choices_match_the_models():
     from tfhrv.cli import CALIBRATION_MODELS
 
     assert CALIBRATION_MODELS == MODELS
+
+
+@pytest.mark.parametrize("value", ["0", "two", "-1"])
+def test_bad_worker_count_is_a_one_line_error(tmp_path, capsys, monkeypatch, value):
+    p = tmp_path / "r.csv"
+    p.write_text("rr_ms\n" + "800\n" * 600)
+    monkeypatch.setenv("TFHRV_WORKERS", value)
+    assert main(["inspect", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "TFHRV_WORKERS" in err and repr(value) in err
+
+
+def test_version_is_printed_on_request(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert capsys.readouterr().out.startswith("tfhrv ")
