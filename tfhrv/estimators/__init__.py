@@ -4,7 +4,7 @@ The names below are imported on first use, so importing one estimator module doe
 import the others (scipy.signal, for one, is slow to import).
 """
 
-from importlib import import_module
+from tfhrv.core.lazy import lazy_exports
 
 _LAZY = {
     "BandPowers": "tfhrv.estimators.spectral",
@@ -41,12 +41,4 @@ _LAZY = {
 
 __all__ = sorted(_LAZY)
 
-
-def __getattr__(name: str):
-    if name in _LAZY:
-        return getattr(import_module(_LAZY[name]), name)
-    raise AttributeError(f"module 'tfhrv.estimators' has no attribute {name!r}")
-
-
-def __dir__() -> list[str]:
-    return __all__
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

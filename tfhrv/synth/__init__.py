@@ -4,7 +4,7 @@ recordings with ground truth.
 The names below are imported on first use, so ``import tfhrv.synth`` stays cheap.
 """
 
-from importlib import import_module
+from tfhrv.core.lazy import lazy_exports
 
 _LAZY = {
     "fbm": "tfhrv.synth.noise",
@@ -22,12 +22,4 @@ _LAZY = {
 
 __all__ = sorted(_LAZY)
 
-
-def __getattr__(name: str):
-    if name in _LAZY:
-        return getattr(import_module(_LAZY[name]), name)
-    raise AttributeError(f"module 'tfhrv.synth' has no attribute {name!r}")
-
-
-def __dir__() -> list[str]:
-    return __all__
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)
