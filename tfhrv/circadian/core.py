@@ -15,6 +15,7 @@ from scipy import optimize, special, stats
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.validation import (
     as_1d_float,
+    as_bool_mask,
     check_choice,
     check_int,
     check_positive,
@@ -474,15 +475,6 @@ class Contrast:
     reason: str
 
 
-def _as_mask(m: object, name: str, size: int) -> np.ndarray:
-    arr = np.asarray(m)
-    if arr.dtype != np.bool_:
-        raise TypeError(f"{name} must be a boolean array, got dtype {arr.dtype}")
-    if arr.shape != (size,):
-        raise ValueError(f"{name} must have shape ({size},), got {arr.shape}")
-    return arr
-
-
 def _median_spacing(t: np.ndarray) -> float:
     d = np.diff(np.sort(t[np.isfinite(t)]))
     d = d[d > 0]
@@ -591,13 +583,13 @@ def night_day_contrast(
     yy = as_1d_float(y, "y", finite=False)
     if yy.size != t.size:
         raise ValueError(f"t_hours and y must have the same length, got {t.size} and {yy.size}")
-    night = _as_mask(is_night, "is_night", t.size)
-    day = _as_mask(is_day, "is_day", t.size)
+    night = as_bool_mask(is_night, "is_night", t.size)
+    day = as_bool_mask(is_day, "is_day", t.size)
     if np.any(night & day):
         raise ValueError("is_night and is_day must not both be True for a window")
     ok = np.isfinite(t) & np.isfinite(yy)
     if valid is not None:
-        ok &= _as_mask(valid, "valid", t.size)
+        ok &= as_bool_mask(valid, "valid", t.size)
     block_hours = check_positive(block_hours, "block_hours")
     n_boot = check_int(n_boot, "n_boot", minimum=1)
     alpha = _check_alpha(alpha)

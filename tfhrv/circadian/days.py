@@ -30,6 +30,7 @@ __all__ = [
     "circadian_table",
     "format_circadian",
     "read_sleep_log",
+    "sleep_log_records",
 ]
 
 #: (tier, variable) pairs analysed, in table order.
@@ -79,6 +80,27 @@ class CircadianOptions:
                                  f"got {(a, b)!r}")
 
 
+_SLEEP_LOG_COLUMNS = {"record", "rest_start", "rest_end"}
+
+
+def _sleep_log_rows(p: Path, fh) -> csv.DictReader:
+    """A DictReader over an open sleep log whose header has every required column."""
+    reader = csv.DictReader(fh)
+    missing = _SLEEP_LOG_COLUMNS - set(reader.fieldnames or ())
+    if missing:
+        raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}", line=1)
+    return reader
+
+
+def sleep_log_records(path: str | Path, /) -> set[str]:
+    """The record ids a sleep-log CSV has rows for (header checked, rows not parsed)."""
+    p = Path(path)
+    if not p.is_file():
+        raise RecordFormatError(str(p), "no such sleep-log file")
+    with p.open(newline="", encoding="utf-8-sig") as fh:
+        return {(row.get("record") or "").strip() for row in _sleep_log_rows(p, fh)}
+
+
 def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetime, dt.datetime]]:
     """Rest periods of one record from a sleep-log CSV.
 
@@ -96,11 +118,7 @@ def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetim
     out = []
     try:
         with p.open(newline="", encoding="utf-8-sig") as fh:
-            reader = csv.DictReader(fh)
-            missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
-            if missing:
-                raise RecordFormatError(str(p), f"sleep log lacks column(s) {sorted(missing)}",
-                                        line=1)
+            reader = _sleep_log_rows(p, fh)
             for row in reader:
                 i = reader.line_num
                 if None in row or any(v is None for v in row.values()):

@@ -81,6 +81,7 @@ from tfhrv.circadian.days import (
     circadian_dataset,
     circadian_table,
     read_sleep_log,
+    sleep_log_records,
 )
 from tfhrv.cohort.outputs import (
     BIN_MINUTES,
@@ -354,15 +355,7 @@ def with_sleep_log(entries: Sequence[ManifestEntry], path: str | Path, /
     from dataclasses import replace
 
     log = Path(path)
-    if not log.is_file():
-        raise RecordFormatError(str(log), "no such sleep-log file")
-    with log.open(newline="", encoding="utf-8-sig") as fh:
-        reader = csv.DictReader(fh)
-        missing = {"record", "rest_start", "rest_end"} - set(reader.fieldnames or ())
-        if missing:
-            raise RecordFormatError(str(log), f"sleep log lacks column(s) {sorted(missing)}",
-                                    line=1)
-        ids = {(row.get("record") or "").strip() for row in reader}
+    ids = sleep_log_records(log)
     return tuple(replace(e, sleep_log=log.resolve()) if e.sleep_log is None and e.record in ids
                  else e for e in entries)
 

@@ -9,8 +9,8 @@ import numpy as np
 
 from tfhrv.core.errors import InsufficientDataError
 
-__all__ = ["as_1d_float", "check_choice", "check_int", "check_positive", "check_range",
-           "check_unit_interval", "readonly"]
+__all__ = ["as_1d_float", "as_bool_mask", "check_choice", "check_int", "check_positive",
+           "check_range", "check_unit_interval", "readonly"]
 
 
 def as_1d_float(x: Any, name: str, *, min_len: int = 1, finite: bool = True) -> np.ndarray:
@@ -56,6 +56,20 @@ def check_positive(value: Any, name: str, *, strict: bool = True) -> float:
         kind = "> 0" if strict else ">= 0"
         raise ValueError(f"{name} must be finite and {kind}, got {value!r}")
     return v
+
+
+def as_bool_mask(m: Any, name: str, size: int, *, like: str = "") -> np.ndarray:
+    """Return ``m`` as a boolean array of shape ``(size,)``, or raise a clear error.
+
+    ``like`` names the array whose length ``m`` must match (for the message).
+    """
+    arr = np.asarray(m)
+    if arr.dtype != np.bool_:
+        raise TypeError(f"{name} must be a boolean array, got dtype {arr.dtype}")
+    if arr.shape != (size,):
+        raise ValueError(f"{name} must have shape ({size},){' like ' + like if like else ''}, "
+                         f"got {arr.shape}")
+    return arr
 
 
 def check_int(value: Any, name: str, *, minimum: int | None = None) -> int:

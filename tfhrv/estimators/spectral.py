@@ -19,6 +19,7 @@ from scipy import special
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.validation import (
     as_1d_float,
+    as_bool_mask,
     check_choice,
     check_int,
     check_positive,
@@ -776,11 +777,7 @@ def beta_from_nn(
                 f"beat_time_s and rr_ms must have the same length, got {t.size} and {rr.size}"
             )
         if keep is not None:
-            k = np.asarray(keep)
-            if k.dtype != np.bool_:
-                raise TypeError(f"keep must be a boolean array, got dtype {k.dtype}")
-            if k.shape != t.shape:
-                raise ValueError(f"keep must have shape {t.shape} like beat_time_s, got {k.shape}")
+            k = as_bool_mask(keep, "keep", t.size, like="beat_time_s")
             t, rr = t[k], rr[k]
         if t.size < 4:
             raise InsufficientDataError(f"Lomb-Scargle needs at least 4 kept beats, got {t.size}")

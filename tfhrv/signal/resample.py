@@ -16,7 +16,7 @@ import numpy as np
 from scipy.linalg import solve_banded
 
 from tfhrv.core.errors import InsufficientDataError
-from tfhrv.core.validation import as_1d_float, check_positive, readonly
+from tfhrv.core.validation import as_1d_float, as_bool_mask, check_positive, readonly
 
 __all__ = ["EvenSeries", "resample_even"]
 
@@ -63,12 +63,7 @@ class EvenSeries:
 def _keep_mask(keep: Any, n: int) -> np.ndarray:
     if keep is None:
         return np.ones(n, dtype=bool)
-    k = np.asarray(keep)
-    if k.dtype != np.bool_:
-        raise TypeError(f"keep must be a boolean array, got dtype {k.dtype}")
-    if k.shape != (n,):
-        raise ValueError(f"keep must have shape ({n},) like beat_time_s, got {k.shape}")
-    return k
+    return as_bool_mask(keep, "keep", n, like="beat_time_s")
 
 
 def _not_a_knot_spline(x: np.ndarray, y: np.ndarray, at: np.ndarray, j: np.ndarray
