@@ -53,7 +53,7 @@ import time
 t0 = time.perf_counter()
 from tfhrv.cli import _workers  # sets the BLAS thread defaults as the command does
 from tfhrv.analysis.pipeline import analyse_record
-from tfhrv.dataset.build import build_tree
+from tfhrv.dataset.build import build_groups
 from tfhrv.dataset.netcdf import write_tree
 from tfhrv.io.readers import read_recording
 from tfhrv.signal.clean import clean
@@ -64,7 +64,7 @@ battery = analyse_record(c, detail="battery", workers=_workers())
 t3 = time.perf_counter()
 a = analyse_record(c, detail="full", workers=_workers())
 t4 = time.perf_counter()
-tree = build_tree(a)
+tree = build_groups(a)
 t5 = time.perf_counter()
 write_tree(tree, {out!r})
 t6 = time.perf_counter()

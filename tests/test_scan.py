@@ -117,6 +117,35 @@ def test_direct_writer_matches_xarray_h5netcdf_writer(small_tree, tmp_path):
                     assert str(got.get(key)) == str(var.encoding.get(key)), (node.path, name)
 
 
+def test_plain_groups_write_the_same_file_without_xarray(tmp_path):
+    # tfhrv scan writes the groups of build_groups directly (no xarray import); the file
+    # must open identical to the one xarray's own netCDF-4 writer (h5netcdf engine, the
+    # independent reference) makes of the same content as a DataTree, with both clock
+    # kinds: datetimes (clock start known) and timedeltas (no clock).
+    from tfhrv.analysis.pipeline import analyse_record
+    from tfhrv.dataset.build import build_groups
+    from tfhrv.dataset.groups import as_datatree
+
+    opt = ScanOptions(long=replace(LONG, hop_s=2 * 3600.0))
+    for start in (START, None):
+        rec, _ = schedule_recording(9.0, seed=2)
+        rec = Recording.from_intervals(rec.rr_ms, start=start, record_id="plain")
+        groups = build_groups(analyse_record(clean(rec), options=opt))
+        ours = write_tree(groups, tmp_path / f"ours{start is None}.nc")
+        ref = tmp_path / f"ref{start is None}.nc"
+        as_datatree(groups).to_netcdf(ref, engine="h5netcdf")
+        with xr.open_datatree(ours) as a, xr.open_datatree(ref, engine="h5netcdf") as b:
+            xr.testing.assert_identical(a, b)
+            assert a["/short"]["time"].dtype.kind == ("M" if start else "m")
+    code = ("import sys; from tfhrv.dataset.build import build_groups; "
+            "from tfhrv.dataset.netcdf import write_tree; "
+            "from tfhrv.analysis.pipeline import analyse_record; "
+            "print('xarray' in sys.modules or 'pandas' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "False"
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()

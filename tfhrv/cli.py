@@ -310,6 +310,9 @@ def _check_long_enough(cleaned, options, *, what: str) -> None:
 
 
 def _cmd_scan(args: argparse.Namespace) -> int:
+    # plain groups written directly: a scan never imports xarray (tfhrv.dataset.groups)
+    from tfhrv.analysis.pipeline import analyse_record
+    from tfhrv.dataset.build import build_groups
     from tfhrv.dataset.netcdf import write_tree
 
     _check_output(args.output, (".nc",))
@@ -318,13 +321,16 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
-    tree = _scan_recording(rec, options, progress, args=args, what="a scan")
+    progress.stage("clean")
+    cleaned = _clean(rec, args)
+    _check_long_enough(cleaned, options, what="a scan")
+    groups = build_groups(analyse_record(cleaned, options=options, detail="full",
+                                         progress=progress, workers=_workers()))
     progress.stage(f"write {args.output}")
-    write_tree(tree, args.output)
-    rec_ds = tree["/record"]
-    print(f"wrote {args.output}: {tree['/short'].sizes['time']} short and "
-          f"{tree['/long'].sizes['time']} long windows; FFT-slope verdict "
-          f"{rec_ds.attrs['verdict']}")
+    write_tree(groups, args.output)
+    n_short, n_long = (groups[g].sizes()["time"] for g in ("/short", "/long"))
+    print(f"wrote {args.output}: {n_short} short and {n_long} long windows; FFT-slope "
+          f"verdict {groups['/record'].attrs['verdict']}")
     return 0
 
 

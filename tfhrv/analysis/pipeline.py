@@ -27,7 +27,7 @@ import numpy as np
 
 from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
 from tfhrv.analysis.policy import ESTIMATORS, choose_estimator
-from tfhrv.analysis.record import RecordAssessment, assess_record
+from tfhrv.analysis.record import RecordAssessment, RecordMeasures, assess_record, record_measures
 from tfhrv.analysis.verdict import FitnessThresholds
 from tfhrv.analysis.windows import (
     LONG,
@@ -284,10 +284,14 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
         la = local_slopes(_at_scales(fl, usable))
         v["fluctuation"][w, : usable.size] = la.fluctuation
         v["local_alpha"][w, : usable.size] = la.slopes
-    diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
-    if diag is not None:
-        m = np.minimum(diag.octaves.size, octaves.size)
-        v["wavelet_energy"][w, :m] = diag.energy[:m]
+    wfit = fits["beta_wavelet"]
+    if wfit is not None:  # the fit holds the energies of its log-scale diagram
+        energy = np.asarray(wfit.options["energy"])
+    else:
+        diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
+        energy = diag.energy if diag is not None else np.empty(0)
+    m = np.minimum(energy.size, octaves.size)
+    v["wavelet_energy"][w, :m] = energy[:m]
 
 
 def _band_ok(tier: TierSpec) -> np.ndarray:
@@ -360,9 +364,26 @@ _FORK_STATE: dict = {}
 _MIN_PARALLEL_BEATS = 20_000
 
 
-def _fork_job(job: tuple[str, int]) -> tuple[str, int, StationarityResult | None, dict | None]:
+def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool
+                  ) -> tuple[RecordMeasures, Fluctuation | None, LogscaleDiagram | None]:
+    """The whole-record work that does not need the window battery: the measures of the
+    assessment and (``full``) the record's fluctuation function and log-scale diagram."""
+    measures = record_measures(cleaned, order=opt.dfa_order,
+                               vanishing_moments=opt.vanishing_moments,
+                               calibration_model=opt.calibration_model)
+    fl = diag = None
+    if full:
+        nn = cleaned.nn_ms
+        fl = _or_none(dfa_fluctuation, nn, order=opt.dfa_order)
+        diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
+    return measures, fl, diag
+
+
+def _fork_job(job: tuple[str, int]) -> tuple[str, int, object, dict | None]:
     name, w = job
     st = _FORK_STATE
+    if name == "record":
+        return name, w, _record_parts(st["cleaned"], st["opt"], st["full"]), None
     tier = st["tiers"][name]
     win = st["windows"][name][w]
     res, row = _one_window(tier, w, win, st["opt"], st["grids"][name], st["full"])
@@ -370,11 +391,11 @@ def _fork_job(job: tuple[str, int]) -> tuple[str, int, StationarityResult | None
 
 
 def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
-                            workers: int, progress: Progress
-                            ) -> tuple[TierAnalysis, TierAnalysis] | None:
-    """Both tiers with the windows shared among ``workers`` forked processes, or None
-    when forking is unavailable or does not pay.  Every window is computed by the same
-    function with the same seed as in the serial path, so results are identical."""
+                            workers: int, progress: Progress) -> tuple | None:
+    """Both tiers and the whole-record parts (:func:`_record_parts`), the windows and the
+    record shared among ``workers`` forked processes, or None when forking is unavailable
+    or does not pay.  Every window is computed by the same function with the same seed as
+    in the serial path, so results are identical."""
     import multiprocessing as mp
 
     if "fork" not in mp.get_all_start_methods():
@@ -385,22 +406,30 @@ def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
     if beats < _MIN_PARALLEL_BEATS:
         return None
     grids = {n: _tier_grids_of(cleaned, t, opt) for n, t in tiers.items()}
-    # largest windows first, so that the last jobs to finish are short ones
-    jobs = sorted(((n, w) for n, ws in windows.items() for w in range(len(ws))),
-                  key=lambda j: -windows[j[0]][j[1]].n_beats)
-    _FORK_STATE.update(tiers=tiers, windows=windows, grids=grids, opt=opt, full=full)
+    # the whole record first, then the largest windows, so that the last jobs to finish
+    # are short ones
+    jobs = [("record", 0)] + sorted(
+        ((n, w) for n, ws in windows.items() for w in range(len(ws))),
+        key=lambda j: -windows[j[0]][j[1]].n_beats)
+    _FORK_STATE.update(tiers=tiers, windows=windows, grids=grids, opt=opt, full=full,
+                       cleaned=cleaned)
     try:
         with mp.get_context("fork").Pool(workers) as pool:
-            done = list(progress.track(pool.imap_unordered(_fork_job, jobs, chunksize=4),
+            done = list(progress.track(pool.imap_unordered(_fork_job, jobs, chunksize=1),
                                        total=len(jobs),
                                        label=f"windows ({workers} processes)"))
     finally:
         _FORK_STATE.clear()
     results: dict[str, list] = {n: [None] * len(ws) for n, ws in windows.items()}
+    record = None
     for name, w, res, row in done:
-        results[name][w] = (res, row)
-    return tuple(_assemble_tier(tiers[n], windows[n], results[n], grids[n], full)
-                 for n in ("short", "long"))
+        if name == "record":
+            record = res
+        else:
+            results[name][w] = (res, row)
+    short, long = (_assemble_tier(tiers[n], windows[n], results[n], grids[n], full)
+                   for n in ("short", "long"))
+    return short, long, record
 
 
 def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
@@ -435,21 +464,18 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
     opt = options or ScanOptions()
     full = detail == "full"
     workers = check_int(workers, "workers", minimum=1)
-    tiers = (_analyse_tiers_parallel(cleaned, opt, full, workers, progress) if workers > 1
-             else None)
-    if tiers is None:
-        tiers = (_analyse_tier(cleaned, opt.short, opt, full=full, progress=progress),
-                 _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress))
-    short, long = tiers
-    progress.stage("whole-record fits and FFT-slope verdict")
+    parallel = (_analyse_tiers_parallel(cleaned, opt, full, workers, progress) if workers > 1
+                else None)
+    if parallel is None:
+        short = _analyse_tier(cleaned, opt.short, opt, full=full, progress=progress)
+        long = _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress)
+        progress.stage("whole-record fits and FFT-slope verdict")
+        measures, fl, diag = _record_parts(cleaned, opt, full)
+    else:
+        short, long, (measures, fl, diag) = parallel
     assessment = assess_record(cleaned, long_categories=long.categories,
                                band_hz=opt.record_band_hz, order=opt.dfa_order,
                                vanishing_moments=opt.vanishing_moments,
                                thresholds=opt.thresholds,
-                               calibration_model=opt.calibration_model)
-    fl = diag = None
-    if full:
-        nn = cleaned.nn_ms
-        fl = _or_none(dfa_fluctuation, nn, order=opt.dfa_order)
-        diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
+                               calibration_model=opt.calibration_model, measures=measures)
     return RecordAnalysis(cleaned, opt, detail, short, long, assessment, fl, diag)

@@ -26,7 +26,9 @@ from tfhrv.signal.resample import resample_even
 
 __all__ = [
     "RecordAssessment",
+    "RecordMeasures",
     "assess_record",
+    "record_measures",
 ]
 
 @dataclass(frozen=True, slots=True)
@@ -112,6 +114,50 @@ def _block_intervals(nn: np.ndarray, tt: np.ndarray, fits: dict, even, band, ord
     return out
 
 
+@dataclass(frozen=True, slots=True)
+class RecordMeasures:
+    """What the whole-record assessment measures before judging: the calibrated fits,
+    the FFT-slope band used, the level-change effect and the block intervals (see
+    :class:`RecordAssessment`).  They do not depend on the window battery, so the pipeline
+    computes them alongside the windows."""
+
+    fits: dict
+    band_hz: tuple[float, float] | None
+    effect: LevelChangeEffect | None
+    block: dict
+
+
+def record_measures(
+    cleaned: CleanResult,
+    /,
+    *,
+    order: int = 1,
+    vanishing_moments: int = 3,
+    calibration_model: str = "powerlaw",
+) -> RecordMeasures:
+    """Whole-record calibrated fits, level-change effect on the FFT slope and block
+    intervals (the parts of :func:`assess_record` that do not need the window battery)."""
+    q = cleaned.quality
+    nn, tt = cleaned.nn_ms, cleaned.nn_time_s
+    fits, _ = calibrated_fits(RECORD_PRESETS, nn, beat_time_s=tt, order=order,
+                              vanishing_moments=vanishing_moments,
+                              calibration_model=calibration_model)
+    try:
+        used_band = long_band(q.recorded_s)
+    except InsufficientDataError:
+        used_band = None
+    even = effect = None
+    if used_band is not None and nn.size >= 16:
+        try:
+            even = resample_even(tt, nn, fs_hz=1.0, max_gap_s=3.0)
+            effect = level_change_effect(even.value_ms, band_hz=used_band, fs_hz=even.fs_hz,
+                                         gap=even.interpolated)
+        except InsufficientDataError:
+            effect = None
+    block = _block_intervals(nn, tt, fits, even, used_band, order, vanishing_moments)
+    return RecordMeasures(fits, used_band, effect, block)
+
+
 def assess_record(
     cleaned: CleanResult,
     /,
@@ -122,6 +168,7 @@ def assess_record(
     vanishing_moments: int = 3,
     thresholds: FitnessThresholds | None = None,
     calibration_model: str = "powerlaw",
+    measures: RecordMeasures | None = None,
 ) -> RecordAssessment:
     """Whole-record exponents, the effect of the level changes on the FFT slope, the
     block intervals and the FFT-slope fitness verdict.
@@ -136,32 +183,22 @@ def assess_record(
         The classical band whose FFT slope is being judged.
     calibration_model : {"powerlaw", "fgn-fbm"}
         The calibration model of the exponents (:mod:`tfhrv.calibration.calibrate`).
+    measures : RecordMeasures, optional
+        :func:`record_measures` of this record with the same options, when already
+        computed (the pipeline computes it alongside the windows).
     """
     from tfhrv.stationarity.battery import CATEGORIES
 
     q = cleaned.quality
-    nn, tt = cleaned.nn_ms, cleaned.nn_time_s
-    fits, _ = calibrated_fits(RECORD_PRESETS, nn, beat_time_s=tt, order=order,
-                              vanishing_moments=vanishing_moments,
-                              calibration_model=calibration_model)
+    if measures is None:
+        measures = record_measures(cleaned, order=order, vanishing_moments=vanishing_moments,
+                                   calibration_model=calibration_model)
+    fits, effect = measures.fits, measures.effect
     cats = np.asarray(long_categories)
     valid = cats != CATEGORIES.index("too-short")
     nonstat = (float(np.mean(cats[valid] != CATEGORIES.index("stationary")))
                if valid.any() else float("nan"))
     spec = fits["beta_spectral"]
-    try:
-        used_band = long_band(q.recorded_s)
-    except InsufficientDataError:
-        used_band = None
-    even = effect = None
-    if used_band is not None and nn.size >= 16:
-        try:
-            even = resample_even(tt, nn, fs_hz=1.0, max_gap_s=3.0)
-            effect = level_change_effect(even.value_ms, band_hz=used_band, fs_hz=even.fs_hz,
-                                         gap=even.interpolated)
-        except InsufficientDataError:
-            effect = None
-    block = _block_intervals(nn, tt, fits, even, used_band, order, vanishing_moments)
 
     def value(name: str, attr: str = "exponent") -> float:
         f = fits[name]
@@ -183,4 +220,4 @@ def assess_record(
         level_effect_ci=effect.ci if effect is not None else (nan, nan),
         thresholds=thresholds,
     )
-    return RecordAssessment(fits, verdict, used_band, effect, block)
+    return RecordAssessment(fits, verdict, measures.band_hz, effect, measures.block)

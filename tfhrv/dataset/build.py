@@ -1,8 +1,10 @@
-"""The scan file: a DataTree built from the record pipeline's results.
+"""The scan file built from the record pipeline's results.
 
 Groups ``/nn``, ``/short``, ``/long`` and ``/record``, every variable declared in
 :mod:`tfhrv.dataset.schema`; the root carries the provenance.  The numbers come from
 :func:`tfhrv.analysis.pipeline.analyse_record`; nothing is computed here but labels.
+:func:`build_groups` gives plain numpy groups (what ``tfhrv scan`` writes, without
+importing xarray); :func:`build_tree` the same content as an ``xarray.DataTree``.
 """
 
 from __future__ import annotations
@@ -10,9 +12,9 @@ from __future__ import annotations
 import datetime as dt
 import json
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import xarray as xr
 
 from tfhrv.analysis.pipeline import (
     EXPONENTS,
@@ -24,13 +26,17 @@ from tfhrv.analysis.pipeline import (
 from tfhrv.analysis.verdict import VERDICTS
 from tfhrv.core.caution import CAUTION
 from tfhrv.core.progress import SILENT, Progress
-from tfhrv.dataset.netcdf import file_sha256, numpy_only
+from tfhrv.dataset.groups import Group, as_datatree
+from tfhrv.dataset.netcdf import file_sha256
 from tfhrv.dataset.schema import BANDS, BOUNDS, variable
 from tfhrv.estimators.loglog import ScalingFit
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
 from tfhrv.signal.clean import CleanResult
 
-__all__ = ["build_tree", "provenance", "scan"]
+if TYPE_CHECKING:  # pragma: no cover
+    import xarray as xr
+
+__all__ = ["build_groups", "build_tree", "provenance", "scan"]
 
 
 def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
@@ -71,7 +77,7 @@ def _time_coords(group: str, elapsed_s: np.ndarray, rec) -> dict:
     return coords
 
 
-def _tier_dataset(tier: TierAnalysis, rec, group: str) -> xr.Dataset:
+def _tier_dataset(tier: TierAnalysis, rec, group: str) -> Group:
     data = {}
     for name, val in tier.values.items():
         data[name] = variable(group, name, val.astype(str) if name == "reason" else val)
@@ -86,10 +92,8 @@ def _tier_dataset(tier: TierAnalysis, rec, group: str) -> xr.Dataset:
         "scale": variable(group, "scale", tier.scales),
         "octave": variable(group, "octave", tier.octaves),
     })
-    ds = xr.Dataset(data, coords=coords)
-    ds.attrs.update({"window_s": tier.spec.window_s, "hop_s": tier.spec.hop_s,
-                     "scale_target": tier.spec.scale})
-    return ds
+    return Group(data, coords, {"window_s": tier.spec.window_s, "hop_s": tier.spec.hop_s,
+                                "scale_target": tier.spec.scale})
 
 
 def _fit_curve(name: str, fit: ScalingFit) -> dict:
@@ -104,7 +108,7 @@ def _fit_curve(name: str, fit: ScalingFit) -> dict:
     }
 
 
-def _record_dataset(analysis: RecordAnalysis) -> xr.Dataset:
+def _record_dataset(analysis: RecordAnalysis) -> Group:
     g = "/record"
     cleaned = analysis.cleaned
     q = cleaned.quality
@@ -143,13 +147,11 @@ def _record_dataset(analysis: RecordAnalysis) -> xr.Dataset:
                 "nn_sd_ms", "rmssd_ms", "recorded_h", "analysable_h"):
         data[key] = variable(g, key, float(qd[key]))
     data["hourly_coverage"] = variable(g, "hourly_coverage", q.hourly_coverage)
-    ds = xr.Dataset(data, coords=coords)
     band = analysis.assessment.band_hz
-    ds.attrs.update({"verdict": verdict.verdict,
-                     "beta_spectral_band_hz": list(band) if band else [],
-                     "removed": json.dumps(qd["removed"]),
-                     "record_id": cleaned.recording.record_id})
-    return ds
+    return Group(data, coords, {"verdict": verdict.verdict,
+                                "beta_spectral_band_hz": list(band) if band else [],
+                                "removed": json.dumps(qd["removed"]),
+                                "record_id": cleaned.recording.record_id})
 
 
 def _consequence_vars(assessment) -> dict:
@@ -181,10 +183,10 @@ def _consequence_vars(assessment) -> dict:
     return out
 
 
-def _nn_dataset(cleaned: CleanResult) -> xr.Dataset:
+def _nn_dataset(cleaned: CleanResult) -> Group:
     rec = cleaned.recording
     g = "/nn"
-    return xr.Dataset({
+    return Group({
         "beat_time_s": variable(g, "beat_time_s", rec.beat_time_s),
         "rr_ms": variable(g, "rr_ms", rec.rr_ms),
         "label": variable(g, "label", rec.labels.astype(str)),
@@ -192,8 +194,9 @@ def _nn_dataset(cleaned: CleanResult) -> xr.Dataset:
     })
 
 
-def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
-    """The scan file's DataTree from a full record analysis.
+def build_groups(analysis: RecordAnalysis, /) -> dict[str, Group]:
+    """The scan file's groups (path -> :class:`~tfhrv.dataset.groups.Group`, numpy only)
+    from a full record analysis.
 
     Parameters
     ----------
@@ -210,23 +213,24 @@ def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
         "max_relative_change": cleaned.options.max_relative_change,
         "reference_beats": cleaned.options.reference_beats,
         "gap_min_s": cleaned.options.gap_min_s}}
-    with numpy_only():
-        root = xr.Dataset(attrs=provenance(source=rec.source, parameters=params,
-                                           history="tfhrv scan"))
-        root.attrs["record_id"] = rec.record_id
-        root.attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
-                               else "time-of-day" if rec.start is not None else "unknown")
-        root.attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
-        clock = rec.clock
-        root.attrs["time_zone"] = ("" if clock is None
-                                   else clock.zone or "UTC offsets of the file")
-        root.attrs["utc_offset_changes"] = json.dumps([] if clock is None
-                                                      else clock.changes())
-        return xr.DataTree.from_dict({
-            "/": root, "/nn": _nn_dataset(cleaned),
+    attrs = provenance(source=rec.source, parameters=params, history="tfhrv scan")
+    attrs["record_id"] = rec.record_id
+    attrs["clock"] = ("timestamp" if isinstance(rec.start, dt.datetime)
+                      else "time-of-day" if rec.start is not None else "unknown")
+    attrs["start"] = rec.start.isoformat() if rec.start is not None else ""
+    clock = rec.clock
+    attrs["time_zone"] = "" if clock is None else clock.zone or "UTC offsets of the file"
+    attrs["utc_offset_changes"] = json.dumps([] if clock is None else clock.changes())
+    return {"/": Group(attrs=attrs), "/nn": _nn_dataset(cleaned),
             "/short": _tier_dataset(analysis.short, rec, "/short"),
             "/long": _tier_dataset(analysis.long, rec, "/long"),
-            "/record": _record_dataset(analysis)})
+            "/record": _record_dataset(analysis)}
+
+
+def build_tree(analysis: RecordAnalysis, /) -> xr.DataTree:
+    """The scan file's DataTree from a full record analysis (:func:`build_groups` as an
+    ``xarray.DataTree``)."""
+    return as_datatree(build_groups(analysis))
 
 
 def scan(cleaned: CleanResult, /, *, options: ScanOptions | None = None,

@@ -5,17 +5,20 @@ and renamed into place only when complete (``os.replace`` is atomic on POSIX), s
 error, a full disk or a kill never leaves a half-written file under the final name (HDF5
 does not recover from a failed write to disk; a write to memory cannot fail that way).
 
-Layout and speed.  :func:`write_tree` CF-encodes each group with xarray's own encoders
-(times, coordinates attribute, fill values) and writes the encoded variables straight
-through h5py in the netCDF-4 layout (HDF5 dimension scales, ``_Netcdf4Dimid``,
-``_Netcdf4Coordinates``, creation order tracked), so plain
-``xarray.open_datatree(path)`` and netCDF-C readers see the same file the xarray h5netcdf
-writer produces.  Going through the h5netcdf object layer cost about 7 ms per variable
-(about 170 variables) and imported dask and distributed to ask for a scheduler; the direct
-writer costs well under 1 ms per variable.  Variables are stored contiguous and
-uncompressed: the file is read whole (:func:`open_tree` loads it), the largest arrays are
-the per-beat series of ``/nn`` (a few MB for 24 h), and chunking or deflate would cost
-more time on both sides than the disk it saves (measured in ``benchmarks/bench_cli.py``).
+Layout and speed.  :func:`write_tree` takes plain groups
+(:mod:`tfhrv.dataset.groups`, what ``tfhrv scan`` writes without importing xarray) or an
+``xarray.DataTree`` (turned into groups), CF-encodes each variable itself (NaN fill values
+for floats, text as variable-length UTF-8, times as int64 counts of the largest exact CF
+unit, the ``coordinates`` attribute) and writes it straight through h5py in the netCDF-4
+layout (HDF5 dimension scales, ``_Netcdf4Dimid``, ``_Netcdf4Coordinates``, creation order
+tracked), so plain ``xarray.open_datatree(path)`` and netCDF-C readers see the same file
+the xarray h5netcdf writer produces (``tests/test_scan.py`` checks both routes against
+it).  Going through the h5netcdf object layer cost about 7 ms per variable (about 170
+variables) and imported dask and distributed to ask for a scheduler; the direct writer
+costs well under 1 ms per variable.  Variables are stored contiguous and uncompressed:
+the file is read whole (:func:`open_tree` loads it), the largest arrays are the per-beat
+series of ``/nn`` (a few MB for 24 h), and chunking or deflate would cost more time on
+both sides than the disk it saves (measured in ``benchmarks/bench_cli.py``).
 """
 
 from __future__ import annotations
@@ -31,6 +34,7 @@ import numpy as np
 
 from tfhrv.core.errors import RecordFormatError
 from tfhrv.core.files import atomic_write
+from tfhrv.dataset.groups import Group, groups_of
 
 if TYPE_CHECKING:  # pragma: no cover
     import xarray as xr
@@ -105,23 +109,89 @@ def _set_attrs(obj, attrs) -> None:
         obj.attrs[key] = _attr_value(value)
 
 
-def _encoded(ds: xr.Dataset) -> tuple[dict, dict]:
-    """CF-encoded variables and attributes of one group (xarray's own encoders)."""
-    from xarray import conventions
-
-    variables, attrs = conventions.encode_dataset_coordinates(ds)
-    variables, attrs = conventions.cf_encoder(variables, attrs)
-    return variables, attrs
+#: CF time units, largest first, in milliseconds (the writer picks the largest that
+#: divides every value exactly, as xarray's encoder does).
+_TIME_UNITS = (("days", 86_400_000), ("hours", 3_600_000), ("minutes", 60_000),
+               ("seconds", 1000), ("milliseconds", 1))
 
 
-def _write_group(h5, ds: xr.Dataset, next_dimid: int) -> int:
+def _exact_unit(ms: np.ndarray) -> tuple[str, int]:
+    for unit, size in _TIME_UNITS:
+        if not np.any(ms % size):
+            return unit, size
+    return _TIME_UNITS[-1]  # pragma: no cover - ms always divides
+
+
+def _cf_variable(data, attrs: dict) -> tuple[np.ndarray, dict, object]:
+    """One variable CF-encoded: stored array, attributes and fill value (or None).
+
+    Floats get a NaN ``_FillValue``; booleans are stored as int8 marked ``dtype: bool``;
+    text as variable-length UTF-8; datetimes and timedeltas as int64 counts of the
+    largest exact unit (CF units, ``since`` the first value for datetimes), to the
+    millisecond.
+    """
+    a = np.asarray(data)
+    attrs = dict(attrs)
+    if a.dtype.kind in "UO":
+        return a.astype(object), attrs, None
+    if a.dtype.kind == "b":
+        attrs["dtype"] = "bool"
+        return a.astype(np.int8), attrs, None
+    if a.dtype.kind == "M":
+        ms = a.astype("datetime64[ms]")
+        if np.isnat(ms).any():
+            raise ValueError("datetimes to write must not be missing (NaT)")
+        ref = ms.ravel()[0] if ms.size else np.datetime64("1970-01-01T00:00:00", "ms")
+        counts = (ms - ref).astype(np.int64)
+        unit, size = _exact_unit(counts)
+        text = str(ref.astype("datetime64[s]" if not ref.astype(np.int64) % 1000
+                              else "datetime64[ms]")).replace("T", " ")
+        attrs.update(units=f"{unit} since {text}", calendar="proleptic_gregorian")
+        return counts // size, attrs, None
+    if a.dtype.kind == "m":
+        ms = a.astype("timedelta64[ms]")
+        if np.isnat(ms).any():
+            raise ValueError("timedeltas to write must not be missing (NaT)")
+        counts = ms.astype(np.int64)
+        unit, size = _exact_unit(counts)
+        attrs.update(units=unit, dtype="timedelta64[ms]")
+        return counts // size, attrs, None
+    if a.dtype.kind == "f":
+        fill = attrs.setdefault("_FillValue", np.nan)
+        return a, attrs, fill
+    return a, attrs, attrs.get("_FillValue")
+
+
+def _encoded(group: Group) -> tuple[dict, dict]:
+    """The CF-encoded variables of a group, ``name -> (dims, array, attrs, fill)``, with
+    the ``coordinates`` attribute naming each data variable's non-index coordinates (CF
+    1.10 section 5), and the group's attributes."""
+    labels = {n: dims for n, (dims, _, _) in group.coords.items() if dims != (n,)}
+    out: dict = {}
+    for name, (dims, data, attrs) in group.data.items():
+        array, enc, fill = _cf_variable(data, attrs)
+        names = sorted(c for c, cdims in labels.items() if set(cdims) <= set(dims))
+        if names:
+            enc["coordinates"] = " ".join(names)
+        out[name] = (tuple(dims), array, enc, fill)
+    for name, (dims, data, attrs) in group.coords.items():
+        out[name] = (tuple(dims),) + _cf_variable(data, attrs)
+    attrs = dict(group.attrs)
+    orphans = sorted(set(labels) - {c for _, _, a, _ in out.values()
+                                    for c in a.get("coordinates", "").split()})
+    if orphans:  # coordinates no data variable carries (CF: a global attribute)
+        attrs["coordinates"] = " ".join(orphans)
+    return out, attrs
+
+
+def _write_group(h5, group: Group, next_dimid: int) -> int:
     import h5py
 
-    variables, attrs = _encoded(ds)
+    variables, attrs = _encoded(group)
     _set_attrs(h5, attrs)
     sizes: dict = {}
-    for var in variables.values():
-        sizes.update(zip(var.dims, var.shape, strict=True))
+    for dims, array, _, _ in variables.values():
+        sizes.update(zip(dims, array.shape, strict=True))
     dimid = {}
     scales = {}
     # dimension scales first (netCDF-C numbers dimensions in creation order)
@@ -129,7 +199,7 @@ def _write_group(h5, ds: xr.Dataset, next_dimid: int) -> int:
         dimid[dim] = next_dimid
         next_dimid += 1
         var = variables.get(dim)
-        if var is not None and var.dims == (dim,):
+        if var is not None and var[0] == (dim,):
             scales[dim] = None  # a coordinate variable: created below, then made a scale
         else:
             d = h5.create_dataset(dim, shape=(size,), dtype=">f4")
@@ -137,50 +207,56 @@ def _write_group(h5, ds: xr.Dataset, next_dimid: int) -> int:
             d.attrs["_Netcdf4Dimid"] = np.int32(dimid[dim])
             scales[dim] = d
     str_dtype = h5py.string_dtype("utf-8")
-    for name, var in variables.items():
-        data = np.asarray(var.values)
-        fill = var.attrs.get("_FillValue", var.encoding.get("_FillValue"))
-        if data.dtype.kind in "UO":
-            data = data.astype(object)
+    for name, (dims, data, enc, fill) in variables.items():
+        if data.dtype.kind == "O":
             d = h5.create_dataset(name, data=data, dtype=str_dtype)
         elif fill is not None and data.dtype.kind in "fiu":
             d = h5.create_dataset(name, data=data, fillvalue=data.dtype.type(fill))
         else:
             d = h5.create_dataset(name, data=data)
-        is_scale = name in scales and scales[name] is None
-        if is_scale:
+        if name in scales and scales[name] is None:
             d.make_scale(name)
             d.attrs["_Netcdf4Dimid"] = np.int32(dimid[name])
             scales[name] = d
-        if var.dims:
-            d.attrs["_Netcdf4Coordinates"] = np.array([dimid[x] for x in var.dims],
+        if dims:
+            d.attrs["_Netcdf4Coordinates"] = np.array([dimid[x] for x in dims],
                                                       dtype=np.int32)
-        _set_attrs(d, var.attrs)
-    for name, var in variables.items():
+        _set_attrs(d, enc)
+    for name, (dims, _, _, _) in variables.items():
         if name in scales:
             continue
         d = h5[name]
-        for axis, dim in enumerate(var.dims):
+        for axis, dim in enumerate(dims):
             d.dims[axis].attach_scale(scales[dim])
     return next_dimid
 
 
-def _write_h5(tree: xr.DataTree, path) -> None:
+def _write_h5(groups: dict[str, Group], path) -> None:
     import h5py
 
-    with numpy_only(), h5py.File(path, "w", track_order=True) as h5:
+    with h5py.File(path, "w", track_order=True) as h5:
         h5.attrs["_NCProperties"] = np.bytes_(
             f"version=2,tfhrv-h5py={h5py.version.version},hdf5={h5py.version.hdf5_version}")
         next_dimid = 0
-        for node in tree.subtree:
-            group = h5 if node.is_root else h5.create_group(node.path, track_order=True)
-            next_dimid = _write_group(group, node.to_dataset(inherit=False), next_dimid)
+        for path_, group in groups.items():
+            node = h5 if path_ == "/" else h5.create_group(path_, track_order=True)
+            next_dimid = _write_group(node, group, next_dimid)
 
 
-def netcdf_bytes(tree: xr.DataTree, /) -> bytes:
-    """The NetCDF4 file of a DataTree, rendered in memory (see the module notes)."""
+def _as_groups(tree) -> dict[str, Group]:
+    if isinstance(tree, dict):
+        if "/" not in tree:
+            raise ValueError("groups must include the root group '/'")
+        return tree
+    return groups_of(tree)
+
+
+def netcdf_bytes(tree: xr.DataTree | dict[str, Group], /) -> bytes:
+    """The NetCDF4 file of a DataTree or of plain groups (path -> :class:`Group`, as
+    :func:`tfhrv.dataset.build.build_groups` makes them), rendered in memory (see the
+    module notes)."""
     buf = io.BytesIO()
-    _write_h5(tree, buf)
+    _write_h5(_as_groups(tree), buf)
     return buf.getvalue()
 
 
@@ -193,11 +269,13 @@ def write_bytes(data: bytes):
     return write
 
 
-def write_tree(tree: xr.DataTree, path: str | Path, /, *, outputs=None) -> Path:
-    """Write a DataTree as NetCDF4 with groups, atomically.
+def write_tree(tree: xr.DataTree | dict[str, Group], path: str | Path, /, *,
+               outputs=None) -> Path:
+    """Write a DataTree, or plain groups (:mod:`tfhrv.dataset.groups`), as NetCDF4 with
+    groups, atomically.
 
-    Each group is CF-encoded by xarray and written through h5py in the netCDF-4 layout
-    (see the module notes); ``xarray.open_datatree`` reads it back identical.  With
+    Each group is CF-encoded and written through h5py in the netCDF-4 layout (see the
+    module notes); ``xarray.open_datatree`` reads it back identical.  With
     ``outputs`` (a :class:`tfhrv.core.files.OutputSet`) the file is staged there and
     renamed with the command's other outputs.
     """

@@ -16,9 +16,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from types import MappingProxyType
+from typing import TYPE_CHECKING
 
 import numpy as np
-import xarray as xr
 
 from tfhrv.analysis.pipeline import EXPONENTS
 from tfhrv.analysis.policy import ESTIMATORS
@@ -26,6 +26,9 @@ from tfhrv.analysis.verdict import VERDICTS
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
 from tfhrv.signal.clean import Reason
 from tfhrv.stationarity.battery import CATEGORIES
+
+if TYPE_CHECKING:  # pragma: no cover
+    import xarray as xr
 
 __all__ = [
     "BANDS",

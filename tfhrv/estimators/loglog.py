@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -248,6 +249,18 @@ class ScalingFit:
         if not np.isfinite(self.slope_exponent):
             object.__setattr__(self, "slope_exponent", float(self.exponent))
 
+    def __reduce__(self):
+        # pickled with its options as a plain dict (a mappingproxy cannot be pickled), so
+        # that a fit can come back from a worker process
+        fields = {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
+        fields["options"] = dict(self.options)
+        return (_scaling_fit, (fields,))
+
     def converted(self) -> Conversion:
         """The exponent as beta, alpha and Hurst, with its fGn/fBm class."""
         return convert_exponent(self.exponent, kind=self.kind)
+
+
+def _scaling_fit(fields: dict) -> ScalingFit:
+    """A ScalingFit from its fields (the unpickling side of ``ScalingFit.__reduce__``)."""
+    return ScalingFit(**fields)

@@ -137,7 +137,8 @@ def estimate(
         raise InsufficientDataError(
             f"beta_wavelet_long needs octaves 7..8 or coarser with >= 16 coefficients; a "
             f"series of {x.size} beats is too short")
-    return wavelet_exponent(x, vanishing_moments=vanishing_moments, octaves=(7, int(ok.max())))
+    return wavelet_exponent(x, vanishing_moments=vanishing_moments, octaves=(7, int(ok.max())),
+                            diagram=diag)
 
 
 def dfa_fit_range(name: str, n_obs: int, /) -> tuple[int, int]:

@@ -378,13 +378,15 @@ def _is_uniform(f: np.ndarray) -> bool:
     return bool(np.allclose(d, d[0], rtol=1e-6, atol=0.0))
 
 
-def _integrate(f: np.ndarray, p: np.ndarray, low: float, high: float) -> tuple[float, int]:
-    """Power over low < f <= high and the number of grid points in it."""
+def _integrate(f: np.ndarray, p: np.ndarray, low: float, high: float, uniform: bool
+               ) -> tuple[float, int]:
+    """Power over low < f <= high and the number of grid points in it (``uniform``: the
+    grid ``f`` is evenly spaced, :func:`_is_uniform`)."""
     inside = (f > low) & (f <= high)
     n = int(np.count_nonzero(inside))
     if n == 0:
         return float("nan"), 0
-    if _is_uniform(f):
+    if uniform:
         df = f[1] - f[0] if f.size > 1 else 0.0
         return float(p[inside].sum() * df), n
     # Non-uniform grid: trapezoid rule, with the PSD interpolated at the band edges.
@@ -455,10 +457,11 @@ def band_powers(
         names.append(str(name))
         limits.append((low, high))
     f, p = spectrum.frequency_hz, spectrum.psd
-    res = [_integrate(f, p, lo, hi) for lo, hi in limits]
+    uniform = _is_uniform(f)
+    res = [_integrate(f, p, lo, hi, uniform) for lo, hi in limits]
     power = np.array([r[0] for r in res])
     counts = np.array([r[1] for r in res], dtype=np.int64)
-    total, _ = _integrate(f, p, 0.0, max(hi for _, hi in limits))
+    total, _ = _integrate(f, p, 0.0, max(hi for _, hi in limits), uniform)
     lf = power[names.index("LF")] if "LF" in names else np.nan
     hf = power[names.index("HF")] if "HF" in names else np.nan
     with np.errstate(divide="ignore", invalid="ignore"):

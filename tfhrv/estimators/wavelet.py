@@ -253,7 +253,7 @@ def logscale_diagram(
 
 def wavelet_exponent(
     x: np.ndarray, /, *, vanishing_moments: int = 3, octaves: tuple[int, int] | None = None,
-    wavelet_family: WaveletFamily = "db",
+    wavelet_family: WaveletFamily = "db", diagram: LogscaleDiagram | None = None,
 ) -> ScalingFit:
     """Spectral exponent beta by the Abry–Veitch wavelet log-scale regression.
 
@@ -272,6 +272,9 @@ def wavelet_exponent(
         octave with at least 16 boundary-free coefficients (common practice).
     wavelet_family : {"db", "sym"}, default "db"
         Daubechies or symlet wavelets (N vanishing moments, filter length 2N).
+    diagram : LogscaleDiagram, optional
+        :func:`logscale_diagram` of ``x`` with these options, when the caller already has
+        it (it is then not computed again).
 
     Returns
     -------
@@ -316,7 +319,15 @@ def wavelet_exponent(
     >>> bool(abs(wavelet_exponent(fbm(2**14, 0.3, rng=4)).exponent - 1.6) < 0.15)
     True
     """
-    d = logscale_diagram(x, vanishing_moments=vanishing_moments, wavelet_family=wavelet_family)
+    if diagram is None:
+        d = logscale_diagram(x, vanishing_moments=vanishing_moments,
+                             wavelet_family=wavelet_family)
+    else:
+        d = diagram
+        name = f"{wavelet_family}{vanishing_moments}"
+        if d.wavelet != name or d.n_obs != np.size(x):
+            raise ValueError(f"diagram is of {d.wavelet} on {d.n_obs} values, not of {name} "
+                             f"on the {np.size(x)} values of x")
     j = d.octaves
     if octaves is None:
         enough = j[d.n_coefficients >= MIN_COEFFICIENTS]
