@@ -307,27 +307,32 @@ def _tier_grids_of(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions) -> tu
     return _tier_grids(tier, mean_rr, fs)
 
 
-def _one_window(tier: TierSpec, w: int, win: Window, opt: ScanOptions, grids: tuple,
-                full: bool) -> tuple[StationarityResult | None, dict | None]:
-    """Battery (window ``w`` uses seed ``opt.seed + w``, as tier_stationarity) and, for
-    ``full``, the per-window values of one window as a one-row table."""
-    (st,) = tier_stationarity([win], n_surrogates=opt.n_surrogates, seed=opt.seed + w)
-    if not full:
-        return st, None
-    row = _empty_values(1, *grids)
-    _window_values(row, 0, win, st, tier, opt, grids, _band_ok(tier))
-    return st, row
+def _window_block(tier: TierSpec, windows: list[Window], start: int, stop: int,
+                  opt: ScanOptions, grids: tuple, full: bool
+                  ) -> tuple[list[StationarityResult | None], dict]:
+    """Battery (window ``w`` uses seed ``opt.seed + w``, as :func:`tier_stationarity`)
+    and, for ``full``, the per-window values of windows ``start:stop`` as a table of
+    ``stop - start`` rows (one transfer per block, not per window)."""
+    battery = [tier_stationarity([windows[w]], n_surrogates=opt.n_surrogates,
+                                 seed=opt.seed + w)[0] for w in range(start, stop)]
+    values: dict[str, np.ndarray] = {}
+    if full:
+        values = _empty_values(stop - start, *grids)
+        band_ok = _band_ok(tier)
+        for i, st in enumerate(battery):
+            _window_values(values, i, windows[start + i], st, tier, opt, grids, band_ok)
+    return battery, values
 
 
-def _assemble_tier(tier: TierSpec, windows: list[Window], results: list, grids: tuple,
-                   full: bool) -> TierAnalysis:
-    battery = [st for st, _ in results]
+def _assemble_tier(tier: TierSpec, windows: list[Window], battery: list, blocks: list,
+                   grids: tuple, full: bool) -> TierAnalysis:
+    """A tier from its battery results and its value blocks ``(first window, table)``."""
     values: dict[str, np.ndarray] = {}
     if full:
         values = _empty_values(len(windows), *grids)
-        for w, (_, row) in enumerate(results):
+        for start, block in blocks:
             for name, arr in values.items():
-                arr[w] = row[name][0]
+                arr[start: start + block[name].shape[0]] = block[name]
         for arr in values.values():
             arr.flags.writeable = False
     centres = np.array([win.start_s for win in windows]) + tier.window_s / 2
@@ -362,6 +367,9 @@ _FORK_STATE: dict = {}
 #: Fewest analysable beats over all windows for which forking workers pays (common
 #: practice: below it, process start-up and result transfer cost more than they save).
 _MIN_PARALLEL_BEATS = 20_000
+#: Beats per job of the worker pool: short windows travel in blocks of about this many
+#: beats (a 5-min window has about 400), long windows one by one.
+_JOB_BEATS = 6_000
 
 
 def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool
@@ -379,23 +387,34 @@ def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool
     return measures, fl, diag
 
 
-def _fork_job(job: tuple[str, int]) -> tuple[str, int, object, dict | None]:
-    name, w = job
+def _fork_job(job: tuple[str, int, int]) -> tuple[str, int, int, object]:
+    name, start, stop = job
     st = _FORK_STATE
     if name == "record":
-        return name, w, _record_parts(st["cleaned"], st["opt"], st["full"]), None
-    tier = st["tiers"][name]
-    win = st["windows"][name][w]
-    res, row = _one_window(tier, w, win, st["opt"], st["grids"][name], st["full"])
-    return name, w, res, row
+        return name, start, stop, _record_parts(st["cleaned"], st["opt"], st["full"])
+    return name, start, stop, _window_block(st["tiers"][name], st["windows"][name], start,
+                                            stop, st["opt"], st["grids"][name], st["full"])
+
+
+def _blocks(windows: list[Window]) -> list[tuple[int, int]]:
+    """Consecutive ranges of windows holding about :data:`_JOB_BEATS` beats each."""
+    out, start, beats = [], 0, 0
+    for w, win in enumerate(windows):
+        beats += win.n_beats
+        if beats >= _JOB_BEATS:
+            out.append((start, w + 1))
+            start, beats = w + 1, 0
+    if start < len(windows):
+        out.append((start, len(windows)))
+    return out
 
 
 def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
                             workers: int, progress: Progress) -> tuple | None:
-    """Both tiers and the whole-record parts (:func:`_record_parts`), the windows and the
-    record shared among ``workers`` forked processes, or None when forking is unavailable
-    or does not pay.  Every window is computed by the same function with the same seed as
-    in the serial path, so results are identical."""
+    """Both tiers and the whole-record parts (:func:`_record_parts`), shared among
+    ``workers`` forked processes, or None when forking is unavailable or does not pay.
+    Every window is computed by the same function with the same seed as in the serial
+    path, so results are identical."""
     import multiprocessing as mp
 
     if "fork" not in mp.get_all_start_methods():
@@ -406,28 +425,32 @@ def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
     if beats < _MIN_PARALLEL_BEATS:
         return None
     grids = {n: _tier_grids_of(cleaned, t, opt) for n, t in tiers.items()}
-    # the whole record first, then the largest windows, so that the last jobs to finish
-    # are short ones
-    jobs = [("record", 0)] + sorted(
-        ((n, w) for n, ws in windows.items() for w in range(len(ws))),
-        key=lambda j: -windows[j[0]][j[1]].n_beats)
+    # the whole record first, then the largest jobs, so that the last to finish are small
+    jobs = [(n, a, b) for n, ws in windows.items() for a, b in _blocks(ws)]
+    jobs.sort(key=lambda j: -sum(w.n_beats for w in windows[j[0]][j[1]:j[2]]))
+    jobs.insert(0, ("record", 0, 0))
     _FORK_STATE.update(tiers=tiers, windows=windows, grids=grids, opt=opt, full=full,
                        cleaned=cleaned)
+    done = []
+    progress.start(sum(len(ws) for ws in windows.values()), f"windows ({workers} processes)")
     try:
         with mp.get_context("fork").Pool(workers) as pool:
-            done = list(progress.track(pool.imap_unordered(_fork_job, jobs, chunksize=1),
-                                       total=len(jobs),
-                                       label=f"windows ({workers} processes)"))
+            for res in pool.imap_unordered(_fork_job, jobs):
+                done.append(res)
+                progress.advance(res[2] - res[1])
     finally:
+        progress.finish()
         _FORK_STATE.clear()
-    results: dict[str, list] = {n: [None] * len(ws) for n, ws in windows.items()}
+    battery = {n: [None] * len(ws) for n, ws in windows.items()}
+    blocks: dict[str, list] = {n: [] for n in windows}
     record = None
-    for name, w, res, row in done:
+    for name, start, stop, res in done:
         if name == "record":
             record = res
         else:
-            results[name][w] = (res, row)
-    short, long = (_assemble_tier(tiers[n], windows[n], results[n], grids[n], full)
+            battery[name][start:stop] = res[0]
+            blocks[name].append((start, res[1]))
+    short, long = (_assemble_tier(tiers[n], windows[n], battery[n], blocks[n], grids[n], full)
                    for n in ("short", "long"))
     return short, long, record
 
