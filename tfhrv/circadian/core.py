@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
-from scipy import optimize, special, stats
+from scipy import optimize, special
 
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.validation import (
@@ -190,7 +190,7 @@ def _component(
     if not np.any(cov2):  # perfect fit
         return amp, (amp, amp), acro, (acro, acro), 0.0
     wald = float(bg @ np.linalg.solve(cov2, bg)) / 2.0
-    pval = float(stats.f.sf(wald, 2, df_resid))
+    pval = float(special.fdtrc(2, df_resid, wald))  # F(2, df) survival function
     significant = pval < alpha
     if method == "delta":
         hw_a, hw_p = (tq * se for se in _component_delta(b, g, cov2))
@@ -338,11 +338,11 @@ def cosinor(
     s2 = rss / df_resid
     if rss > 0:
         f_stat = (mss / df_model) / s2
-        f_p = float(stats.f.sf(f_stat, df_model, df_resid))
+        f_p = float(special.fdtrc(df_model, df_resid, f_stat))
     else:
         f_stat, f_p = np.inf, 0.0
-    tq = float(stats.t.ppf(1.0 - alpha / 2.0, df_resid))
-    crit = 2.0 * float(stats.f.ppf(1.0 - alpha, 2, df_resid))
+    tq = float(special.stdtrit(df_resid, 1.0 - alpha / 2.0))  # Student t quantile
+    crit = 2.0 * float(special.fdtri(2, df_resid, 1.0 - alpha))  # F quantile
 
     se_m = float(np.sqrt(cov[0, 0]))
     mesor = float(coef[0])
