@@ -146,6 +146,24 @@ def test_plain_groups_write_the_same_file_without_xarray(tmp_path):
     assert out.stdout.strip() == "False"
 
 
+def test_open_tree_reads_what_xarray_reads(small_tree, tmp_path):
+    # open_tree decodes the file itself through h5py; xarray's own reader (h5netcdf engine)
+    # is the independent reference: the same tree, including a group added later (the
+    # /circadian group of tfhrv circadian, written through the DataTree route).
+    from tfhrv.dataset.groups import groups_of
+
+    tree = small_tree.copy()
+    extra = xr.Dataset({"v": ("k", np.array([1.5, np.nan]), {"units": "1"}),
+                        "flag": ("k", np.array([True, False]))},
+                       coords={"k": ("k", ["a", "b"])}, attrs={"note": "x", "n": 3})
+    tree["/extra"] = xr.DataTree(extra)
+    path = write_tree(tree, tmp_path / "t.nc")
+    ours = open_tree(path, check=False)
+    with xr.open_datatree(path, engine="h5netcdf") as ref:
+        xr.testing.assert_identical(ours, ref.load())
+    assert set(groups_of(ours)) == {"/", "/nn", "/short", "/long", "/record", "/extra"}
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()
