@@ -26,6 +26,11 @@ from typing import Literal
 import numpy as np
 
 from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
+from tfhrv.analysis.multifractal_fits import (
+    empty_multifractal,
+    record_multifractal,
+    window_multifractal,
+)
 from tfhrv.analysis.policy import ESTIMATORS, choose_estimator
 from tfhrv.analysis.record import RecordAssessment, assess_record
 from tfhrv.analysis.verdict import FitnessThresholds
@@ -38,6 +43,7 @@ from tfhrv.analysis.windows import (
     tier_stationarity,
     tier_windows,
 )
+from tfhrv.calibration.multifractal import MultifractalEstimate
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.progress import SILENT, Progress
 from tfhrv.core.validation import check_choice, check_int
@@ -123,8 +129,9 @@ class RecordAnalysis:
     """Everything the pipeline computed on one record.
 
     ``fluctuation`` and ``logscale`` are the whole-record DFA fluctuation function and
-    wavelet log-scale diagram (``detail="full"`` only; None otherwise or when the record is
-    too short for them).
+    wavelet log-scale diagram, ``multifractal`` the whole-record multifractal estimates
+    (:mod:`tfhrv.analysis.multifractal_fits`) (``detail="full"`` only; None otherwise or
+    when the record is too short for them).
     """
 
     cleaned: CleanResult
@@ -135,6 +142,7 @@ class RecordAnalysis:
     assessment: RecordAssessment
     fluctuation: Fluctuation | None
     logscale: LogscaleDiagram | None
+    multifractal: MultifractalEstimate | None = None  # whole record, detail="full" only
 
 
 def _or_none(func, *args, **kwargs):
@@ -200,8 +208,8 @@ def _binned_psd(freq: np.ndarray, psd: np.ndarray, grid: np.ndarray) -> np.ndarr
     return out
 
 
-def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.ndarray
-                  ) -> dict[str, np.ndarray]:
+def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.ndarray,
+                  scale: str = "short") -> dict[str, np.ndarray]:
     nan = np.nan
     v: dict[str, np.ndarray] = {}
     for name in ("nn_mean_ms", "nn_sd_ms", "coverage", "ectopic_fraction", "total_power",
@@ -222,6 +230,8 @@ def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.nda
     v["stationarity"] = np.full(n, CATEGORIES.index("too-short"), dtype=np.int8)
     v["estimator"] = np.zeros(n, dtype=np.int8)
     v["reason"] = np.full(n, "", dtype=object)
+    if scale == "long":  # multifractal: long windows only (analysis.multifractal_fits)
+        v.update(empty_multifractal(n))
     return v
 
 
@@ -288,6 +298,8 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
     if diag is not None:
         m = np.minimum(diag.octaves.size, octaves.size)
         v["wavelet_energy"][w, :m] = diag.energy[:m]
+    if tier.scale == "long":
+        window_multifractal(v, w, nn, st.category, vanishing_moments=opt.vanishing_moments)
 
 
 def _band_ok(tier: TierSpec) -> np.ndarray:
@@ -310,7 +322,7 @@ def _one_window(tier: TierSpec, w: int, win: Window, opt: ScanOptions, grids: tu
     (st,) = tier_stationarity([win], n_surrogates=opt.n_surrogates, seed=opt.seed + w)
     if not full:
         return st, None
-    row = _empty_values(1, *grids)
+    row = _empty_values(1, *grids, tier.scale)
     _window_values(row, 0, win, st, tier, opt, grids, _band_ok(tier))
     return st, row
 
@@ -320,7 +332,7 @@ def _assemble_tier(tier: TierSpec, windows: list[Window], results: list, grids: 
     battery = [st for st, _ in results]
     values: dict[str, np.ndarray] = {}
     if full:
-        values = _empty_values(len(windows), *grids)
+        values = _empty_values(len(windows), *grids, tier.scale)
         for w, (_, row) in enumerate(results):
             for name, arr in values.items():
                 arr[w] = row[name][0]
@@ -340,7 +352,7 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, ful
     grids = _tier_grids_of(cleaned, tier, opt)
     values: dict[str, np.ndarray] = {}
     if full:
-        values = _empty_values(len(windows), *grids)
+        values = _empty_values(len(windows), *grids, tier.scale)
         band_ok = _band_ok(tier)
         rows = progress.track(zip(windows, battery, strict=True), total=len(windows),
                               label=f"fits, {tier.scale} windows")
@@ -447,9 +459,10 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
                                vanishing_moments=opt.vanishing_moments,
                                thresholds=opt.thresholds,
                                calibration_model=opt.calibration_model)
-    fl = diag = None
+    fl = diag = mf = None
     if full:
         nn = cleaned.nn_ms
         fl = _or_none(dfa_fluctuation, nn, order=opt.dfa_order)
         diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
-    return RecordAnalysis(cleaned, opt, detail, short, long, assessment, fl, diag)
+        mf = record_multifractal(nn, vanishing_moments=opt.vanishing_moments)
+    return RecordAnalysis(cleaned, opt, detail, short, long, assessment, fl, diag, mf)
