@@ -2,8 +2,11 @@
 
 On a grid of lengths covering 1-h to 24-h beat counts, simulate
 
-- the monofractal null (c2 = 0): Gaussian 1/f^beta noise (Timmer & Koenig 1995),
-  generated 4x longer and cut (not periodic), beta in BETAS;
+- the monofractal null (c2 = 0) from two families, since the null distribution of the
+  leader c2 at 24-h lengths is narrow enough (SD ~0.002) to feel the family: Gaussian
+  1/f^beta noise (Timmer & Koenig 1995), generated 4x longer and cut (not periodic), beta
+  in BETAS["powerlaw"], and exact fGn (Davies & Harte 1987) with H = (beta + 1)/2, beta in
+  BETAS["fgn"];
 - the multifractal random walk (Bacry, Delour & Muzy 2001) with white innovations and
   integral scale = the length, lambda^2 in LAMBDA2 (c2 = -lambda^2);
 
@@ -18,6 +21,7 @@ Run:  nice -n 19 python scripts/make_multifractal_calibration.py [--reps 100] [-
 References
 ----------
 Timmer J, Koenig M. On generating power law noise. Astron Astrophys 1995;300:707-710.
+Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95-101.
 Bacry E, Delour J, Muzy JF. Multifractal random walk. Phys Rev E 2001;64:026103.
 """
 
@@ -31,18 +35,23 @@ import numpy as np
 
 from tfhrv.calibration.multifractal import raw_estimates
 from tfhrv.estimators.multifractal import DEFAULT_Q
-from tfhrv.synth import powerlaw_noise
+from tfhrv.synth import fgn, powerlaw_noise
 from tfhrv.synth.multifractal import mrw
 
 LENGTHS = np.array([4000, 12000, 40000, 120000])
-BETAS = np.array([0.0, 0.5, 1.0, 1.5])
-LAMBDA2 = np.array([0.0, 0.01, 0.02, 0.035, 0.05, 0.075, 0.1, 0.15])
+FAMILIES = ("powerlaw", "fgn")
+BETAS = {"powerlaw": np.array([0.0, 0.5, 1.0, 1.5]),
+         "fgn": np.array([0.0, 0.4, 0.8, 0.96])}  # H = 0.5, 0.7, 0.9, 0.98
+LAMBDA2 = np.array([0.0, 0.01, 0.02, 0.035, 0.05, 0.075, 0.1, 0.15, 0.2, 0.3])
 SEED = 20020316
 
 
-def null_series(n: int, beta: float, rng: np.random.Generator) -> np.ndarray:
-    """800 ms + 50 ms x a standardised 1/f^beta path (an NN-like series)."""
-    x = powerlaw_noise(4 * n, beta, rng=rng)[:n]
+def null_series(family: str, n: int, beta: float, rng: np.random.Generator) -> np.ndarray:
+    """800 ms + 50 ms x a standardised monofractal path (an NN-like series)."""
+    if family == "fgn":
+        x = fgn(n, (beta + 1.0) / 2.0, rng=rng)
+    else:
+        x = powerlaw_noise(4 * n, beta, rng=rng)[:n]
     return 800.0 + 50.0 * (x - x.mean()) / x.std()
 
 
@@ -53,7 +62,7 @@ def mrw_series(n: int, lambda2: float, rng: np.random.Generator) -> np.ndarray:
 
 def run(reps: int, lengths: np.ndarray) -> dict[str, np.ndarray]:
     nq = DEFAULT_Q.size
-    shape_null = (BETAS.size, lengths.size, reps)
+    shape_null = (len(FAMILIES), BETAS["powerlaw"].size, lengths.size, reps)
     out = {"null_c1": np.full(shape_null, np.nan), "null_c2": np.full(shape_null, np.nan),
            "null_width": np.full(shape_null, np.nan),
            "null_h": np.full((*shape_null, nq), np.nan),
@@ -61,14 +70,16 @@ def run(reps: int, lengths: np.ndarray) -> dict[str, np.ndarray]:
            "mrw_width": np.full((LAMBDA2.size, lengths.size, reps), np.nan)}
     for li, n in enumerate(lengths.tolist()):
         t0 = time.perf_counter()
-        for bi, beta in enumerate(BETAS):
-            rng = np.random.default_rng([SEED, 0, bi, li])
-            for r in range(reps):
-                h, width, c1, c2, _, _ = raw_estimates(null_series(n, beta, rng))
-                out["null_h"][bi, li, r] = h
-                out["null_width"][bi, li, r] = width
-                out["null_c1"][bi, li, r] = c1
-                out["null_c2"][bi, li, r] = c2
+        for fi, fam in enumerate(FAMILIES):
+            for bi, beta in enumerate(BETAS[fam]):
+                rng = np.random.default_rng([SEED, 0, bi, li] if fi == 0
+                                            else [SEED, 2, bi, li])
+                for r in range(reps):
+                    h, width, c1, c2, _, _ = raw_estimates(null_series(fam, n, beta, rng))
+                    out["null_h"][fi, bi, li, r] = h
+                    out["null_width"][fi, bi, li, r] = width
+                    out["null_c1"][fi, bi, li, r] = c1
+                    out["null_c2"][fi, bi, li, r] = c2
         for ki, lam2 in enumerate(LAMBDA2):
             rng = np.random.default_rng([SEED, 1, ki, li])
             for r in range(reps):
@@ -90,16 +101,18 @@ def main() -> None:
     reps = 10 if a.quick else a.reps
     t0 = time.perf_counter()
     out = run(reps, lengths)
-    np.savez_compressed(a.out, lengths=lengths, betas=BETAS, lambda2=LAMBDA2, q=DEFAULT_Q,
+    betas = np.stack([BETAS[f] for f in FAMILIES])
+    np.savez_compressed(a.out, lengths=lengths, betas=betas, lambda2=LAMBDA2, q=DEFAULT_Q,
                         **{k: v.astype(np.float32) for k, v in out.items()})
     wall = time.perf_counter() - t0
     print(f"wrote {a.out} ({reps} replicates per cell) in {wall / 60:.1f} min")
-    print("null c2: mean (SD) by beta (rows) and length (columns)")
-    for bi, beta in enumerate(BETAS):
-        cells = "  ".join(f"{np.nanmean(out['null_c2'][bi, li]):+.4f} "
-                          f"({np.nanstd(out['null_c2'][bi, li]):.4f})"
-                          for li in range(lengths.size))
-        print(f"  beta {beta:.1f}: {cells}")
+    print("null c2: mean (SD) by family and beta (rows) and length (columns)")
+    for fi, fam in enumerate(FAMILIES):
+        for bi, beta in enumerate(BETAS[fam]):
+            cells = "  ".join(f"{np.nanmean(out['null_c2'][fi, bi, li]):+.4f} "
+                              f"({np.nanstd(out['null_c2'][fi, bi, li]):.4f})"
+                              for li in range(lengths.size))
+            print(f"  {fam} beta {beta:.2f}: {cells}")
     print("MRW c2: mean by lambda^2 (rows) and length (columns)")
     for ki, lam2 in enumerate(LAMBDA2):
         cells = "  ".join(f"{np.nanmean(out['mrw_c2'][ki, li]):+.4f}"

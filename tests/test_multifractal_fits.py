@@ -14,7 +14,12 @@ from tfhrv.analysis.multifractal_fits import (
     empty_multifractal,
     window_multifractal,
 )
-from tfhrv.calibration.multifractal import estimate_multifractal, load_multifractal_table
+from tfhrv.calibration.multifractal import (
+    _at_length,
+    _null_cells,
+    estimate_multifractal,
+    load_multifractal_table,
+)
 from tfhrv.estimators.multifractal import mfdfa
 from tfhrv.stationarity.battery import CATEGORIES
 from tfhrv.synth import fgn
@@ -29,10 +34,11 @@ def test_decision_table_covers_every_category():
 
 def test_table_shapes():
     t = load_multifractal_table()
-    assert t.null_c2.shape == (t.betas.size, t.lengths.size, t.null_c2.shape[2])
+    assert t.null_c2.shape[:3] == (*t.betas.shape, t.lengths.size)
+    assert t.null_h.shape[:4] == t.null_c2.shape and t.null_h.shape[4] == t.q.size
     assert t.mrw_c2.shape[:2] == (t.lambda2.size, t.lengths.size)
     assert t.lengths.min() <= 4000 and t.lengths.max() >= 100000
-    assert t.null_c2.shape[2] >= 100  # replicates per cell
+    assert t.null_c2.shape[-1] >= 100  # replicates per cell
 
 
 @pytest.mark.parametrize("seed", [1, 2])
@@ -77,3 +83,19 @@ def test_window_values_follow_the_category():
     assert np.isfinite(v["c2"][1])  # stored, but not primary
     assert np.isnan(v["c2"][2]) and "fewer than 4000" in v["mf_reason"][2]
     assert v["mf_h"].shape == (3, 21) and v["mf_h_ci"].shape == (3, 21, 2)
+
+
+def test_length_interpolation_and_null_cells():
+    # location-scale interpolation in log n: exact at a tabulated length, in between
+    # the mean and log SD are linear in log n
+    rng = np.random.default_rng(0)
+    lengths = np.array([1000.0, 10000.0])
+    reps = np.stack([rng.standard_normal(500) * 2 + 1, rng.standard_normal(500) * 0.5 - 1])
+    np.testing.assert_allclose(_at_length(reps, lengths, 1000), reps[0], rtol=1e-12)
+    mid = _at_length(reps, lengths, np.sqrt(1000 * 10000))  # half-way in log n
+    m, sd = reps.mean(axis=1), reps.std(axis=1, ddof=1)
+    np.testing.assert_allclose(mid.mean(), m.mean(), rtol=1e-9)
+    np.testing.assert_allclose(mid.std(ddof=1), np.sqrt(sd[0] * sd[1]), rtol=1e-9)
+    betas = np.array([[0.0, 0.5, 1.0, 1.5], [0.0, 0.4, 0.8, 0.96]])
+    assert _null_cells(betas, 0.9) == [(0, 1), (0, 2), (1, 2), (1, 3)]
+    assert _null_cells(betas, 1.4) == [(0, 2), (0, 3)]

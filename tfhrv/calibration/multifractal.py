@@ -1,38 +1,41 @@
 """Calibrated multifractal estimates: intervals for c2 and the MF-DFA width, and a test of
 multifractality against the monofractal null.
 
-``scripts/make_multifractal_calibration.py`` simulates, on a grid of lengths,
+``scripts/make_multifractal_calibration.py`` simulates, on a grid of lengths (4000 to
+120000 beats),
 
-- the **monofractal null** (c2 = 0): Gaussian 1/f^beta noise (Timmer & Koenig 1995) on a
-  grid of beta, since the null distribution of the estimates can depend on the exponent;
+- the **monofractal null** (c2 = 0) in two families on a grid of beta each, since the
+  null distribution of the estimates depends on the exponent (the SD of c2 grows by
+  about 60 % from beta = 0 to 1.5) and, at 24-h lengths where its SD is about 0.002, on
+  the family: Gaussian 1/f^beta noise (Timmer & Koenig 1995) and exact fGn (Davies &
+  Harte 1987);
 - the **multifractal random walk** (Bacry, Delour & Muzy 2001) on a grid of lambda^2,
   whose log-cumulant is c2 = -lambda^2 and whose MF-DFA width over q in [-5, 5] is
   10 lambda^2,
 
 and stores every replicate's estimates in ``tfhrv/data/multifractal.npz`` (separate from
-``calibration.npz``).  At run time, for a series of n beats:
+``calibration.npz``).  At run time, for a series of n beats, with beta read from the
+series as 2 c1 - 1 (c1 is about H for the profile of fGn) and the null cells those of
+each family whose beta brackets it:
 
+- **lengths**: the replicates of the tabulated length at or below n, standardised, with
+  their mean and SD interpolated in log n to n (a location-scale interpolation);
 - **c2 and its 95 % interval**: a Neyman belt over lambda^2 (as
   :mod:`tfhrv.calibration.calibrate` does for the exponents): the point is the true c2
   whose mean estimate equals the observed one, the interval the true values whose
-  central 95 % band contains it.  The MRW is simulated with white innovations (beta = 0
-  at the level of the increments); where the null shows that the estimate's bias
-  depends on beta, the belt is shifted by the null mean at the series' beta minus the
-  null mean at beta = 0, and its spread about each mean is scaled by the ratio of the
-  null SDs at the two betas (a location-scale transfer from the null to the alternative;
-  an assumption, checked on fGn and the MRW by ``scripts/validate_multifractal.py``; the
-  null SD of c2 grows with beta, by about 60 % from beta = 0 to 1.5 at 4000 beats).
-  The upper end stops at 0: c2 > 0 is not a scaling model (a value above every band
-  means "monofractal or no scaling").
+  central 95 % band contains it.  The MRW is simulated with white innovations (beta = 0);
+  the belt is moved to the series' beta by a location-scale transfer from the null: its
+  estimates are shifted by the null mean at beta minus the null mean of white noise, and
+  their spread about each mean scaled by the ratio of the null SDs, the null at beta being
+  the replicates of all its cells pooled (so the spread between families and the
+  neighbouring betas widens it). This is an assumption, checked on fGn and the MRW by
+  ``scripts/validate_multifractal.py``.  The upper end stops at 0: c2 > 0 is not a
+  scaling model (a value above every band reads "monofractal or no scaling").
 - **the width** likewise, over the MRW width 10 lambda^2.
-- **p-value for c2 < 0**: the share of null replicates at the nearest tabulated beta and
-  length whose c2 estimate is at or below the observed one, (1 + k) / (1 + R).
-- **c1 and h(q)**: no bias correction; the interval is the estimate +- 1.96 SD of the
-  null replicates at the nearest beta and length.
-
-beta is read from the series itself as 2 c1 - 1 (c1 is the mean Hoelder exponent of the
-profile, H for fGn), clipped to the tabulated range.  Lengths between tabulated ones
-take the nearest tabulated length in log n.
+- **p-value for c2 < 0**: in each null cell, the share of replicates whose c2 estimate is
+  at or below the observed one, (1 + k) / (1 + R); the largest over the cells.
+- **c1 and h(q)**: no bias correction; the interval is the estimate +- 1.96 times the
+  SD of the pooled null replicates.
 
 References
 ----------
@@ -40,6 +43,7 @@ Neyman J. Outline of a theory of statistical estimation based on the classical t
 probability. Phil Trans R Soc A 1937;236:333-380.
 Bacry E, Delour J, Muzy JF. Multifractal random walk. Phys Rev E 2001;64:026103.
 Timmer J, Koenig M. On generating power law noise. Astron Astrophys 1995;300:707-710.
+Davies RB, Harte DS. Tests for Hurst effect. Biometrika 1987;74:95-101.
 Wendt H, Abry P, Jaffard S. Bootstrap for empirical multifractal analysis. IEEE Signal
 Process Mag 2007;24(4):38-48.
 """
@@ -78,9 +82,10 @@ _Z975 = 1.959963984540054
 class MultifractalTable:
     """Replicates of the multifractal calibration (see module docstring).
 
-    ``lengths`` (L,), ``betas`` (B,), ``lambda2`` (K,), ``q`` (Q,); null arrays
-    ``null_c1``, ``null_c2``, ``null_width`` (B, L, R) and ``null_h`` (B, L, R, Q); MRW
-    arrays ``mrw_c2``, ``mrw_width`` (K, L, R). NaN where an estimate could not run.
+    ``lengths`` (L,), ``betas`` (F, B) per null family (0: Timmer-Koenig 1/f^beta, 1: exact
+    fGn), ``lambda2`` (K,), ``q`` (Q,); null arrays ``null_c1``, ``null_c2``,
+    ``null_width`` (F, B, L, R) and ``null_h`` (F, B, L, R, Q); MRW arrays ``mrw_c2``,
+    ``mrw_width`` (K, L, R). NaN where an estimate could not run.
     """
 
     lengths: np.ndarray
@@ -128,7 +133,7 @@ class MultifractalEstimate:
     c2_pvalue : float
         One-sided p-value of "c2 < 0" against the monofractal null.
     null_beta : float
-        The tabulated beta whose null was used.
+        The beta (2 c1 - 1) at which the null was read.
     """
 
     n_obs: int
@@ -172,10 +177,38 @@ def raw_estimates(x: np.ndarray, /, *, order: int = DEFAULT_ORDER, vanishing_mom
     return h, float(width), float(c1), float(c2), alpha, f
 
 
-def _nearest(grid: np.ndarray, value: float, *, log: bool = False) -> int:
-    g = np.log(grid) if log else grid
-    v = np.log(max(value, 1e-300)) if log else value
-    return int(np.argmin(np.abs(g - v)))
+def _at_length(reps: np.ndarray, lengths: np.ndarray, n: int) -> np.ndarray:
+    """Replicates (..., L, R) at length ``n``: the standardised replicates of the nearest
+    tabulated length at or below n (the nearest one below the grid), with mean and SD
+    interpolated linearly in log n between the two bracketing lengths (log SD), clipped
+    to the grid."""
+    logl = np.log(lengths)
+    x = float(np.clip(np.log(max(n, 1)), logl[0], logl[-1]))
+    j = int(np.clip(np.searchsorted(logl, x, side="right") - 1, 0, logl.size - 1))
+    k = min(j + 1, logl.size - 1)
+    w = 0.0 if k == j else (x - logl[j]) / (logl[k] - logl[j])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m = np.nanmean(reps, axis=-1)
+        sd = np.nanstd(reps, axis=-1, ddof=1)
+        mean = (1 - w) * m[..., j] + w * m[..., k]
+        sdv = np.exp((1 - w) * np.log(sd[..., j]) + w * np.log(sd[..., k]))
+        z = (reps[..., j, :] - m[..., j, None]) / sd[..., j, None]
+    return mean[..., None] + sdv[..., None] * z
+
+
+def _null_cells(betas: np.ndarray, beta: float) -> list[tuple[int, int]]:
+    """(family, beta index) of the null cells that bracket ``beta`` in each family (the
+    nearest edge when beta lies off a family's grid by less than 0.25; a family whose
+    grid is farther is not used)."""
+    cells = []
+    for fi, grid in enumerate(betas):
+        if beta < grid[0] - 0.25 or beta > grid[-1] + 0.25:
+            continue
+        j = int(np.searchsorted(grid, beta))
+        cells += [(fi, b) for b in {max(j - 1, 0), min(j, grid.size - 1)}]
+    if not cells:  # outside every family: the nearest point of the first family
+        cells = [(0, int(np.argmin(np.abs(betas[0] - beta))))]
+    return sorted(cells)
 
 
 def _belt(truth: np.ndarray, reps: np.ndarray, shift: float, scale: float, value: float
@@ -239,32 +272,39 @@ def estimate_multifractal(x: np.ndarray, /, *, order: int = DEFAULT_ORDER,
             width_slope=width, width=float("nan"), width_ci=nan2, c1=c1, c1_ci=nan2,
             c2_slope=c2, c2=float("nan"), c2_ci=nan2, c2_pvalue=float("nan"),
             null_beta=float("nan"))
-    li = _nearest(tab.lengths, n, log=True)
-    bi = _nearest(tab.betas, 2.0 * c1 - 1.0)
-    b0 = _nearest(tab.betas, 0.0)
-    null_c2 = tab.null_c2[bi, li]
-    null_w = tab.null_width[bi, li]
+    beta = 2.0 * c1 - 1.0
+    cells = _null_cells(tab.betas, beta)
+    at = {k: _at_length(getattr(tab, k), tab.lengths, n)
+          for k in ("null_c1", "null_c2", "null_width", "mrw_c2", "mrw_width")}
+    null_h = _at_length(np.moveaxis(tab.null_h, -1, -3), tab.lengths, n)  # (F, B, Q, R)
+    def pooled(name: str) -> np.ndarray:  # the null replicates of all cells near beta
+        return np.concatenate([at[name][c] for c in cells])
+
     with np.errstate(invalid="ignore"):
-        sd_h = np.nanstd(tab.null_h[bi, li], axis=0, ddof=1)
-        sd_c1 = float(np.nanstd(tab.null_c1[bi, li], ddof=1))
-        shift_c2 = float(np.nanmean(null_c2) - np.nanmean(tab.null_c2[b0, li]))
-        shift_w = float(np.nanmean(null_w) - np.nanmean(tab.null_width[b0, li]))
-        scale_c2 = float(np.nanstd(null_c2) / np.nanstd(tab.null_c2[b0, li]))
-        scale_w = float(np.nanstd(null_w) / np.nanstd(tab.null_width[b0, li]))
+        null_c2, null_w = pooled("null_c2"), pooled("null_width")
+        base_c2, base_w = at["null_c2"][0, 0], at["null_width"][0, 0]  # white noise
+        shift_c2 = float(np.nanmean(null_c2) - np.nanmean(base_c2))
+        scale_c2 = float(np.nanstd(null_c2, ddof=1) / np.nanstd(base_c2, ddof=1))
+        shift_w = float(np.nanmean(null_w) - np.nanmean(base_w))
+        scale_w = float(np.nanstd(null_w, ddof=1) / np.nanstd(base_w, ddof=1))
+        sd_h = np.nanstd(np.concatenate([null_h[c] for c in cells], axis=-1), axis=-1,
+                         ddof=1)
+        sd_c1 = float(np.nanstd(pooled("null_c1"), ddof=1))
     order_k = np.argsort(-tab.lambda2)  # truth c2 = -lambda^2, increasing
-    c2_cal, c2_ci = _belt(-tab.lambda2[order_k], tab.mrw_c2[order_k, li], shift_c2,
+    c2_cal, c2_ci = _belt(-tab.lambda2[order_k], at["mrw_c2"][order_k], shift_c2,
                           scale_c2, c2)
     w_truth = 10.0 * tab.lambda2  # width of the MRW over q in [-5, 5]
     order_w = np.argsort(w_truth)
-    w_cal, w_ci = _belt(-w_truth[order_w][::-1], -tab.mrw_width[order_w, li][::-1], -shift_w,
+    w_cal, w_ci = _belt(-w_truth[order_w][::-1], -at["mrw_width"][order_w][::-1], -shift_w,
                         scale_w, -width)
     w_cal, w_ci = -w_cal, (-w_ci[1], -w_ci[0])  # width >= 0: the belt is run on -width
-    ok = np.isfinite(null_c2)
-    pval = float((1 + np.sum(null_c2[ok] <= c2)) / (1 + ok.sum())) if np.isfinite(c2) else \
-        float("nan")
+    pval = float("nan")
+    if np.isfinite(c2):  # the largest p over the null cells near beta (conservative)
+        pval = max(float((1 + np.sum(r[np.isfinite(r)] <= c2)) / (1 + np.isfinite(r).sum()))
+                   for r in (at["null_c2"][c] for c in cells))
     h_ci = np.column_stack((h - _Z975 * sd_h, h + _Z975 * sd_h))
     return MultifractalEstimate(
         n_obs=n, q=DEFAULT_Q, h=h, h_ci=h_ci, alpha=alpha, f=f, width_slope=width,
         width=float(w_cal), width_ci=(float(w_ci[0]), float(w_ci[1])), c1=c1,
         c1_ci=(c1 - _Z975 * sd_c1, c1 + _Z975 * sd_c1), c2_slope=c2, c2=float(c2_cal),
-        c2_ci=c2_ci, c2_pvalue=pval, null_beta=float(tab.betas[bi]))
+        c2_ci=c2_ci, c2_pvalue=pval, null_beta=float(beta))
