@@ -53,8 +53,10 @@ def cell(gen, reps: int, truth_c2: float, truth_w: float) -> dict:
     c2, lo, hi, w, wl, wh, p = map(np.asarray, (c2, lo, hi, w, wl, wh, p))
 
     def covers(a, b, t):
-        # an open (NaN) end counts as unbounded
-        return np.mean((np.nan_to_num(a, nan=-np.inf) <= t + 1e-12)
+        # an open (NaN) end counts as unbounded; no interval at all (both ends NaN: the
+        # estimate lies outside every band) counts as not covering
+        some = np.isfinite(a) | np.isfinite(b)
+        return np.mean(some & (np.nan_to_num(a, nan=-np.inf) <= t + 1e-12)
                        & (np.nan_to_num(b, nan=np.inf) >= t - 1e-12))
 
     return {"c2_bias": np.nanmean(c2) - truth_c2, "c2_sd": np.nanstd(c2),

@@ -99,9 +99,10 @@ def test_multifractal_variables(small_tree):
     long, rec = small_tree["/long"].to_dataset(), small_tree["/record"].to_dataset()
     short = small_tree["/short"].to_dataset()
     for name in ("c1", "c1_ci", "c2", "c2_ci", "c2_slope", "c2_pvalue", "mf_width",
-                 "mf_width_ci", "mf_h", "mf_h_ci", "mf_alpha", "mf_f", "mf_estimator"):
+                 "mf_width_ci", "mf_h", "mf_h_ci", "mf_alpha", "mf_f"):
         assert name in long and name in rec, name
         assert name not in short, name
+    assert "mf_estimator" in long and "mf_reason" in long
     assert long["mf_h"].dims == ("time", "q") and rec["mf_h_ci"].dims == ("q", "bound")
     assert long["c2_ci"].dims == ("time", "bound")
     assert "not computed on 5-min windows" in small_tree["/short"].attrs["multifractal"]

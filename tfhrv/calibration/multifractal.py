@@ -30,12 +30,15 @@ each family whose beta brackets it:
   the replicates of all its cells pooled (so the spread between families and the
   neighbouring betas widens it). This is an assumption, checked on fGn and the MRW by
   ``scripts/validate_multifractal.py``.  The upper end stops at 0: c2 > 0 is not a
-  scaling model (a value above every band reads "monofractal or no scaling").
+  scaling model. An estimate above the monofractal band (seen on 24-h records with level
+  changes, which push c2 up, METHODS 7a) has an empty confidence set: c2 is then left
+  uncorrected (= ``c2_slope``) with a NaN interval, as the exponents are outside their
+  tables (:mod:`tfhrv.calibration.calibrate`).
 - **the width** likewise, over the MRW width 10 lambda^2.
 - **p-value for c2 < 0**: in each null cell, the share of replicates whose c2 estimate is
   at or below the observed one, (1 + k) / (1 + R); the largest over the cells.
 - **c1 and h(q)**: no bias correction; the interval is the estimate +- 1.96 times the
-  SD of the pooled null replicates.
+  largest within-cell null SD (not pooled: the cells differ in their true exponent).
 
 References
 ----------
@@ -224,14 +227,16 @@ def _belt(truth: np.ndarray, reps: np.ndarray, shift: float, scale: float, value
         hi_q = np.nanquantile(reps, 0.975, axis=1) + shift
     if not np.isfinite(value) or not np.isfinite(mean).any():
         return float("nan"), (float("nan"), float("nan"))
+    if np.isfinite(hi_q[-1]) and value > hi_q[-1]:
+        # above the band of the monofractal edge: no member of the model family gives
+        # such a value (the confidence set is empty); left uncorrected, no interval
+        return float(value), (float("nan"), float("nan"))
     point = _point(truth, mean, value)
     if not np.isfinite(point) and value > np.nanmax(mean):
         point = float(truth[-1])
     lo, hi = _confidence_set(truth, lo_q, hi_q, value)
     if np.isfinite(lo_q[-1]) and value >= lo_q[-1]:
-        hi = float(truth[-1])  # the band at the edge of the model contains it, or lies below
-        if not np.isfinite(lo) and value > hi_q[-1]:
-            lo = float(truth[-1])
+        hi = float(truth[-1])  # the band at the edge of the model contains it
     return point, (lo, hi)
 
 
@@ -287,9 +292,10 @@ def estimate_multifractal(x: np.ndarray, /, *, order: int = DEFAULT_ORDER,
         scale_c2 = float(np.nanstd(null_c2, ddof=1) / np.nanstd(base_c2, ddof=1))
         shift_w = float(np.nanmean(null_w) - np.nanmean(base_w))
         scale_w = float(np.nanstd(null_w, ddof=1) / np.nanstd(base_w, ddof=1))
-        sd_h = np.nanstd(np.concatenate([null_h[c] for c in cells], axis=-1), axis=-1,
-                         ddof=1)
-        sd_c1 = float(np.nanstd(pooled("null_c1"), ddof=1))
+        # h(q) and c1 differ between the cells (their truth is the cell's exponent): the
+        # largest within-cell SD, not the pooled one
+        sd_h = np.nanmax([np.nanstd(null_h[c], axis=-1, ddof=1) for c in cells], axis=0)
+        sd_c1 = max(float(np.nanstd(at["null_c1"][c], ddof=1)) for c in cells)
     order_k = np.argsort(-tab.lambda2)  # truth c2 = -lambda^2, increasing
     c2_cal, c2_ci = _belt(-tab.lambda2[order_k], at["mrw_c2"][order_k], shift_c2,
                           scale_c2, c2)

@@ -49,10 +49,15 @@ def multifractal_sentence(tree: xr.DataTree, /) -> str:
     p = _scalar(rec, "c2_pvalue")
     w = _scalar(rec, "mf_width")
     wci = _values(rec, "mf_width_ci")
-    c2_txt = (f"c2 = {c2:.3f} {interval_text(*ci, digits=3)}" if np.isfinite(c2)
-              else f"c2 = {_scalar(rec, 'c2_slope'):.3f} (uncalibrated)")
-    w_txt = (f"an MF-DFA spectrum width of {w:.2f} {interval_text(*wci)}" if np.isfinite(w)
-             else "an MF-DFA width outside the calibrated range")
+    if np.isfinite(ci).any():
+        c2_txt = f"c2 = {c2:.3f} {interval_text(*ci, digits=3)}"
+    else:
+        c2_txt = (f"c2 = {_scalar(rec, 'c2_slope'):+.3f}, above the band of a monofractal "
+                  "and outside the calibrated models, as level changes make it")
+    w_txt = (f"an MF-DFA spectrum width of {w:.2f} {interval_text(*wci)}"
+             if np.isfinite(wci).any() else
+             f"an MF-DFA width of {_scalar(rec, 'mf_width_slope'):.2f}, outside the "
+             "calibrated models")
     if np.isfinite(p) and p < 0.05:
         lead = (f"The whole record is more multifractal than monofractal noise of the same "
                 f"exponent would appear ({c2_txt}, p = {p:.3f} for c2 < 0; {w_txt})")
@@ -112,14 +117,14 @@ def multifractal_spectrum(tree: xr.DataTree, /):
     ci = _values(rec, "mf_h_ci")
     if ci is not None:
         ax_h.fill_between(q, ci[:, 0], ci[:, 1], color=_C["orange"], alpha=0.25, lw=0,
-                          zorder=2, label="95 % interval (monofractal null SD)")
+                          zorder=2, label="±1.96 SD of monofractal noise (95 %)")
     ax_h.plot(q, h, color=_C["vermillion"], lw=2.0, marker="o", ms=3, zorder=3,
               label="whole record h(q)", gid="h_record")
     ax_h.axvline(2.0, color=_GREY, lw=0.6, ls=":")
     ax_h.text(2.05, 0.02, "q = 2: DFA", transform=ax_h.get_xaxis_transform(), fontsize=7,
               color="#595959")
-    ax_h.set_xlabel("moment order q")
-    ax_h.set_ylabel("generalised Hurst exponent h(q)")
+    ax_h.set_xlabel("moment order q (dimensionless)")
+    ax_h.set_ylabel("generalised Hurst exponent h(q)\n(dimensionless)")
     ax_h.legend(loc="upper right", fontsize=7.5, frameon=False)
     alpha, f = _values(rec, "mf_alpha"), _values(rec, "mf_f")
     ax_f.plot(alpha, f, color=_C["vermillion"], lw=2.0, marker="o", ms=3, gid="f_alpha")
@@ -127,8 +132,8 @@ def multifractal_spectrum(tree: xr.DataTree, /):
         for i, txt in ((0, "q = -5"), (q.size - 1, "q = 5")):
             ax_f.annotate(txt, (alpha[i], f[i]), textcoords="offset points", xytext=(4, -10),
                           fontsize=7, color="#595959")
-    ax_f.set_xlabel(r"Hoelder exponent $\alpha$")
-    ax_f.set_ylabel(r"singularity spectrum $f(\alpha)$")
+    ax_f.set_xlabel(r"Hoelder exponent $\alpha$ (dimensionless)")
+    ax_f.set_ylabel(r"singularity spectrum $f(\alpha)$ (dimensionless)")
     c2, c2ci = _scalar(rec, "c2"), _values(rec, "c2_ci")
     w, wci = _scalar(rec, "mf_width"), _values(rec, "mf_width_ci")
     p = _scalar(rec, "c2_pvalue")
@@ -139,5 +144,14 @@ def multifractal_spectrum(tree: xr.DataTree, /):
     ax_f.text(0.02, 0.02, "\n".join(lines), transform=ax_f.transAxes, fontsize=7.5,
               va="bottom", ha="left", bbox={"fc": "white", "ec": "#DDDDDD", "lw": 0.6})
     ax_f.set_title("whole record; monofractal = a single point", fontsize=8.5)
+    if alpha is not None and np.isfinite(alpha).all() and np.any(np.diff(alpha) > 0):
+        # a multifractal has alpha(q) decreasing; a rise folds f(alpha) back on itself
+        lo, hi = ax_f.get_ylim()
+        ax_f.set_ylim(lo, hi + 0.45 * (hi - lo))  # room for the note above the curve
+        ax_f.text(0.98, 0.98, "α(q) not decreasing in q: the curve folds back and is\n"
+                  "not a multifractal spectrum (crossovers or non-stationarity\n"
+                  "make h(q) rise with q somewhere)", transform=ax_f.transAxes,
+                  fontsize=7.5, ha="right", va="top", color=_C["vermillion"],
+                  bbox={"fc": "white", "ec": _C["vermillion"], "lw": 0.6})
     return fig
 
