@@ -99,3 +99,22 @@ def test_length_interpolation_and_null_cells():
     betas = np.array([[0.0, 0.5, 1.0, 1.5], [0.0, 0.4, 0.8, 0.96]])
     assert _null_cells(betas, 0.9) == [(0, 1), (0, 2), (1, 2), (1, 3)]
     assert _null_cells(betas, 1.4) == [(0, 2), (0, 3)]
+
+
+def test_circadian_uses_primary_windows_only():
+    # c2 enters the day/night contrast and cosinor only where the category makes it
+    # primary (leaders or both), the width where MF-DFA is primary (mfdfa or both)
+    import xarray as xr
+
+    from tfhrv.circadian.days import _series
+
+    codes = [MF_ESTIMATORS.index(e) for e in ("none", "leaders", "mfdfa", "both")]
+    ds = xr.Dataset({"c2": ("time", [-0.1, -0.2, -0.3, -0.4]),
+                     "mf_width": ("time", [0.1, 0.2, 0.3, 0.4]),
+                     "mf_estimator": ("time", np.array(codes, dtype=np.int8))})
+    tree = xr.DataTree.from_dict({"/long": ds})
+    np.testing.assert_array_equal(_series(tree, "long", "c2"), [np.nan, -0.2, np.nan, -0.4])
+    np.testing.assert_array_equal(_series(tree, "long", "mf_width"),
+                                  [np.nan, np.nan, 0.3, 0.4])
+    old = xr.DataTree.from_dict({"/long": ds.drop_vars(["c2", "mf_estimator"])})
+    assert np.isnan(_series(old, "long", "c2")).all()  # files from before issue #20
