@@ -190,9 +190,10 @@ def _at_length(reps: np.ndarray, lengths: np.ndarray, n: int) -> np.ndarray:
     j = int(np.clip(np.searchsorted(logl, x, side="right") - 1, 0, logl.size - 1))
     k = min(j + 1, logl.size - 1)
     w = 0.0 if k == j else (x - logl[j]) / (logl[k] - logl[j])
+    finite = bool(np.isfinite(reps).all())  # the nan-functions are slow: only if needed
     with np.errstate(invalid="ignore", divide="ignore"):
-        m = np.nanmean(reps, axis=-1)
-        sd = np.nanstd(reps, axis=-1, ddof=1)
+        m = reps.mean(axis=-1) if finite else np.nanmean(reps, axis=-1)
+        sd = reps.std(axis=-1, ddof=1) if finite else np.nanstd(reps, axis=-1, ddof=1)
         mean = (1 - w) * m[..., j] + w * m[..., k]
         sdv = np.exp((1 - w) * np.log(sd[..., j]) + w * np.log(sd[..., k]))
         z = (reps[..., j, :] - m[..., j, None]) / sd[..., j, None]
@@ -223,8 +224,9 @@ def _belt(truth: np.ndarray, reps: np.ndarray, shift: float, scale: float, value
         centre = np.nanmean(reps, axis=1, keepdims=True)
         reps = centre + (reps - centre) * scale
         mean = np.nanmean(reps, axis=1) + shift
-        lo_q = np.nanquantile(reps, 0.025, axis=1) + shift
-        hi_q = np.nanquantile(reps, 0.975, axis=1) + shift
+        quantile = np.quantile if np.isfinite(reps).all() else np.nanquantile
+        lo_q = quantile(reps, 0.025, axis=1) + shift
+        hi_q = quantile(reps, 0.975, axis=1) + shift
     if not np.isfinite(value) or not np.isfinite(mean).any():
         return float("nan"), (float("nan"), float("nan"))
     if np.isfinite(hi_q[-1]) and value > hi_q[-1]:
@@ -237,7 +239,7 @@ def _belt(truth: np.ndarray, reps: np.ndarray, shift: float, scale: float, value
     lo, hi = _confidence_set(truth, lo_q, hi_q, value)
     if np.isfinite(lo_q[-1]) and value >= lo_q[-1]:
         hi = float(truth[-1])  # the band at the edge of the model contains it
-    return point, (lo, hi)
+    return point + 0.0, (lo + 0.0, hi + 0.0)  # + 0.0: no negative zero (truth -lambda^2)
 
 
 def estimate_multifractal(x: np.ndarray, /, *, order: int = DEFAULT_ORDER,
@@ -279,35 +281,39 @@ def estimate_multifractal(x: np.ndarray, /, *, order: int = DEFAULT_ORDER,
             null_beta=float("nan"))
     beta = 2.0 * c1 - 1.0
     cells = _null_cells(tab.betas, beta)
-    at = {k: _at_length(getattr(tab, k), tab.lengths, n)
-          for k in ("null_c1", "null_c2", "null_width", "mrw_c2", "mrw_width")}
-    null_h = _at_length(np.moveaxis(tab.null_h, -1, -3), tab.lengths, n)  # (F, B, Q, R)
-    def pooled(name: str) -> np.ndarray:  # the null replicates of all cells near beta
-        return np.concatenate([at[name][c] for c in cells])
+    def cell(name: str, c: tuple[int, int]) -> np.ndarray:  # one null cell at length n
+        return _at_length(getattr(tab, name)[c], tab.lengths, n)
 
+    def pooled(name: str) -> np.ndarray:  # the null replicates of all cells near beta
+        return np.concatenate([cell(name, c) for c in cells])
+
+    mrw_c2 = _at_length(tab.mrw_c2, tab.lengths, n)
+    mrw_w = _at_length(tab.mrw_width, tab.lengths, n)
     with np.errstate(invalid="ignore"):
         null_c2, null_w = pooled("null_c2"), pooled("null_width")
-        base_c2, base_w = at["null_c2"][0, 0], at["null_width"][0, 0]  # white noise
+        base_c2, base_w = cell("null_c2", (0, 0)), cell("null_width", (0, 0))  # white noise
         shift_c2 = float(np.nanmean(null_c2) - np.nanmean(base_c2))
         scale_c2 = float(np.nanstd(null_c2, ddof=1) / np.nanstd(base_c2, ddof=1))
         shift_w = float(np.nanmean(null_w) - np.nanmean(base_w))
         scale_w = float(np.nanstd(null_w, ddof=1) / np.nanstd(base_w, ddof=1))
         # h(q) and c1 differ between the cells (their truth is the cell's exponent): the
         # largest within-cell SD, not the pooled one
-        sd_h = np.nanmax([np.nanstd(null_h[c], axis=-1, ddof=1) for c in cells], axis=0)
-        sd_c1 = max(float(np.nanstd(at["null_c1"][c], ddof=1)) for c in cells)
+        sd_h = np.nanmax([np.nanstd(_at_length(np.moveaxis(tab.null_h[c], -1, 0),
+                                               tab.lengths, n), axis=-1, ddof=1)
+                          for c in cells], axis=0)
+        sd_c1 = max(float(np.nanstd(cell("null_c1", c), ddof=1)) for c in cells)
     order_k = np.argsort(-tab.lambda2)  # truth c2 = -lambda^2, increasing
-    c2_cal, c2_ci = _belt(-tab.lambda2[order_k], at["mrw_c2"][order_k], shift_c2,
+    c2_cal, c2_ci = _belt(-tab.lambda2[order_k], mrw_c2[order_k], shift_c2,
                           scale_c2, c2)
     w_truth = 10.0 * tab.lambda2  # width of the MRW over q in [-5, 5]
     order_w = np.argsort(w_truth)
-    w_cal, w_ci = _belt(-w_truth[order_w][::-1], -at["mrw_width"][order_w][::-1], -shift_w,
+    w_cal, w_ci = _belt(-w_truth[order_w][::-1], -mrw_w[order_w][::-1], -shift_w,
                         scale_w, -width)
     w_cal, w_ci = -w_cal, (-w_ci[1], -w_ci[0])  # width >= 0: the belt is run on -width
     pval = float("nan")
     if np.isfinite(c2):  # the largest p over the null cells near beta (conservative)
         pval = max(float((1 + np.sum(r[np.isfinite(r)] <= c2)) / (1 + np.isfinite(r).sum()))
-                   for r in (at["null_c2"][c] for c in cells))
+                   for r in (cell("null_c2", c) for c in cells))
     h_ci = np.column_stack((h - _Z975 * sd_h, h + _Z975 * sd_h))
     return MultifractalEstimate(
         n_obs=n, q=DEFAULT_Q, h=h, h_ci=h_ci, alpha=alpha, f=f, width_slope=width,
