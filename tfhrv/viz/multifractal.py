@@ -129,21 +129,21 @@ def multifractal_spectrum(tree: xr.DataTree, /):
     alpha, f = _values(rec, "mf_alpha"), _values(rec, "mf_f")
     ax_f.plot(alpha, f, color=_C["vermillion"], lw=2.0, marker="o", ms=3, gid="f_alpha")
     if alpha is not None and np.isfinite(alpha).all():
-        for i, txt in ((0, "q = -5"), (q.size - 1, "q = 5")):
-            ax_f.annotate(txt, (alpha[i], f[i]), textcoords="offset points", xytext=(4, -10),
+        for i, txt, off in ((0, f"q = {q[0]:g}", (-34, 4)), (q.size - 1, f"q = {q[-1]:g}",
+                                                                 (4, -10))):
+            ax_f.annotate(txt, (alpha[i], f[i]), textcoords="offset points", xytext=off,
                           fontsize=7, color="#595959")
     ax_f.set_xlabel(r"Hoelder exponent $\alpha$ (dimensionless)")
     ax_f.set_ylabel(r"singularity spectrum $f(\alpha)$ (dimensionless)")
     c2, c2ci = _scalar(rec, "c2"), _values(rec, "c2_ci")
     w, wci = _scalar(rec, "mf_width"), _values(rec, "mf_width_ci")
     p = _scalar(rec, "c2_pvalue")
-    lines = [f"c2 = {c2:.3f} {interval_text(*c2ci, digits=3)}, p(c2<0) = {p:.3f}",
-             f"width = {w:.2f} {interval_text(*wci)} (calibrated)",
-             f"raw: c2 {_scalar(rec, 'c2_slope'):.3f}, width "
-             f"{_scalar(rec, 'mf_width_slope'):.2f}"]
-    ax_f.text(0.02, 0.02, "\n".join(lines), transform=ax_f.transAxes, fontsize=7.5,
-              va="bottom", ha="left", bbox={"fc": "white", "ec": "#DDDDDD", "lw": 0.6})
-    ax_f.set_title("whole record; monofractal = a single point", fontsize=8.5)
+    lines = [f"whole record: c2 = {c2:.3f} {interval_text(*c2ci, digits=3)}, "
+             f"p(c2 < 0) = {p:.3f}",
+             f"width = {w:.2f} {interval_text(*wci)} (calibrated); raw c2 "
+             f"{_scalar(rec, 'c2_slope'):.3f}, width {_scalar(rec, 'mf_width_slope'):.2f}",
+             "a monofractal is a single point"]
+    ax_f.set_title("\n".join(lines), fontsize=8, loc="left")
     if alpha is not None and np.isfinite(alpha).all() and np.any(np.diff(alpha) > 0):
         # a multifractal has alpha(q) decreasing; a rise folds f(alpha) back on itself
         lo, hi = ax_f.get_ylim()
