@@ -356,3 +356,17 @@ def test_scale_map_smoothing_option(tree):
         plots.scale_map(tree, smooth_windows=0)
     with pytest.raises(TypeError, match="smooth_windows"):
         plots.scale_map(tree, smooth_windows=2.5)
+
+
+def test_multifractal_figure_shows_the_tree(tree, figs):
+    # the drawn h(q) and f(alpha) are the file's mf_h, mf_alpha and mf_f (issue #20)
+    fig = figs["multifractal"]
+    rec = tree["/record"].to_dataset()
+    line = artist(fig, "h_record")
+    assert_allclose(line.get_xdata(), rec["q"].values)
+    assert_allclose(line.get_ydata(), rec["mf_h"].values)
+    fa = artist(fig, "f_alpha")
+    assert_allclose(fa.get_xdata(), rec["mf_alpha"].values)
+    assert_allclose(fa.get_ydata(), rec["mf_f"].values)
+    sentence = plots.multifractal_sentence(tree)
+    assert "research use only" in sentence.lower() and "c2" in sentence

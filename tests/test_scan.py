@@ -93,6 +93,25 @@ def test_layout_and_cf_attributes(small_tree):
     assert tree["/record"].attrs["verdict"] in ("fit", "fit-with-cautions", "unfit")
 
 
+def test_multifractal_variables(small_tree):
+    # issue #20: /long and /record carry c1, c2 (with _ci, c2_pvalue) and MF-DFA h(q) with
+    # q as a dimension; /short does not, and says why (tfhrv.analysis.multifractal_fits)
+    long, rec = small_tree["/long"].to_dataset(), small_tree["/record"].to_dataset()
+    short = small_tree["/short"].to_dataset()
+    for name in ("c1", "c1_ci", "c2", "c2_ci", "c2_slope", "c2_pvalue", "mf_width",
+                 "mf_width_ci", "mf_h", "mf_h_ci", "mf_alpha", "mf_f"):
+        assert name in long and name in rec, name
+        assert name not in short, name
+    assert "mf_estimator" in long and "mf_reason" in long
+    assert long["mf_h"].dims == ("time", "q") and rec["mf_h_ci"].dims == ("q", "bound")
+    assert long["c2_ci"].dims == ("time", "bound")
+    assert "not computed on 5-min windows" in small_tree["/short"].attrs["multifractal"]
+    # fGn schedule: monofractal within each state (the truth of schedule_recording)
+    ok = np.isfinite(long["c2"].values)
+    assert ok.any() and np.all(long["c2_pvalue"].values[ok] > 0.01)
+    assert np.all(np.abs(long["mf_h"].values[ok] - 0.8) < 0.3)
+
+
 def test_round_trip_identical(small_tree, tmp_path):
     path = write_tree(small_tree, tmp_path / "out.nc")
     back = open_tree(path)

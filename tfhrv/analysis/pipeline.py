@@ -26,8 +26,13 @@ from typing import Literal
 import numpy as np
 
 from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
+from tfhrv.analysis.multifractal_fits import (
+    empty_multifractal,
+    record_multifractal,
+    window_multifractal,
+)
 from tfhrv.analysis.policy import ESTIMATORS, choose_estimator
-from tfhrv.analysis.record import RecordAssessment, RecordMeasures, assess_record, record_measures
+from tfhrv.analysis.record import RecordAssessment, assess_record, record_measures
 from tfhrv.analysis.verdict import FitnessThresholds
 from tfhrv.analysis.windows import (
     LONG,
@@ -38,6 +43,7 @@ from tfhrv.analysis.windows import (
     tier_stationarity,
     tier_windows,
 )
+from tfhrv.calibration.multifractal import MultifractalEstimate
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.progress import SILENT, Progress
 from tfhrv.core.validation import check_choice, check_int
@@ -123,8 +129,9 @@ class RecordAnalysis:
     """Everything the pipeline computed on one record.
 
     ``fluctuation`` and ``logscale`` are the whole-record DFA fluctuation function and
-    wavelet log-scale diagram (``detail="full"`` only; None otherwise or when the record is
-    too short for them).
+    wavelet log-scale diagram, ``multifractal`` the whole-record multifractal estimates
+    (:mod:`tfhrv.analysis.multifractal_fits`) (``detail="full"`` only; None otherwise or
+    when the record is too short for them).
     """
 
     cleaned: CleanResult
@@ -135,6 +142,7 @@ class RecordAnalysis:
     assessment: RecordAssessment
     fluctuation: Fluctuation | None
     logscale: LogscaleDiagram | None
+    multifractal: MultifractalEstimate | None = None  # whole record, detail="full" only
 
 
 def _or_none(func, *args, **kwargs):
@@ -200,8 +208,8 @@ def _binned_psd(freq: np.ndarray, psd: np.ndarray, grid: np.ndarray) -> np.ndarr
     return out
 
 
-def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.ndarray
-                  ) -> dict[str, np.ndarray]:
+def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.ndarray,
+                  scale: str = "short") -> dict[str, np.ndarray]:
     nan = np.nan
     v: dict[str, np.ndarray] = {}
     for name in ("nn_mean_ms", "nn_sd_ms", "coverage", "ectopic_fraction", "total_power",
@@ -222,6 +230,8 @@ def _empty_values(n: int, scales: np.ndarray, octaves: np.ndarray, freqs: np.nda
     v["stationarity"] = np.full(n, CATEGORIES.index("too-short"), dtype=np.int8)
     v["estimator"] = np.zeros(n, dtype=np.int8)
     v["reason"] = np.full(n, "", dtype=object)
+    if scale == "long":  # multifractal: long windows only (analysis.multifractal_fits)
+        v.update(empty_multifractal(n))
     return v
 
 
@@ -292,6 +302,8 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
         energy = diag.energy if diag is not None else np.empty(0)
     m = np.minimum(energy.size, octaves.size)
     v["wavelet_energy"][w, :m] = energy[:m]
+    if tier.scale == "long":
+        window_multifractal(v, w, nn, st.category, vanishing_moments=opt.vanishing_moments)
 
 
 def _band_ok(tier: TierSpec) -> np.ndarray:
@@ -317,7 +329,7 @@ def _window_block(tier: TierSpec, windows: list[Window], start: int, stop: int,
                                  seed=opt.seed + w)[0] for w in range(start, stop)]
     values: dict[str, np.ndarray] = {}
     if full:
-        values = _empty_values(stop - start, *grids)
+        values = _empty_values(stop - start, *grids, tier.scale)
         band_ok = _band_ok(tier)
         for i, st in enumerate(battery):
             _window_values(values, i, windows[start + i], st, tier, opt, grids, band_ok)
@@ -329,7 +341,7 @@ def _assemble_tier(tier: TierSpec, windows: list[Window], battery: list, blocks:
     """A tier from its battery results and its value blocks ``(first window, table)``."""
     values: dict[str, np.ndarray] = {}
     if full:
-        values = _empty_values(len(windows), *grids)
+        values = _empty_values(len(windows), *grids, tier.scale)
         for start, block in blocks:
             for name, arr in values.items():
                 arr[start: start + block[name].shape[0]] = block[name]
@@ -349,7 +361,7 @@ def _analyse_tier(cleaned: CleanResult, tier: TierSpec, opt: ScanOptions, *, ful
     grids = _tier_grids_of(cleaned, tier, opt)
     values: dict[str, np.ndarray] = {}
     if full:
-        values = _empty_values(len(windows), *grids)
+        values = _empty_values(len(windows), *grids, tier.scale)
         band_ok = _band_ok(tier)
         rows = progress.track(zip(windows, battery, strict=True), total=len(windows),
                               label=f"fits, {tier.scale} windows")
@@ -372,19 +384,20 @@ _MIN_PARALLEL_BEATS = 20_000
 _JOB_BEATS = 6_000
 
 
-def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool
-                  ) -> tuple[RecordMeasures, Fluctuation | None, LogscaleDiagram | None]:
+def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool) -> tuple:
     """The whole-record work that does not need the window battery: the measures of the
-    assessment and (``full``) the record's fluctuation function and log-scale diagram."""
+    assessment and (``full``) the record's fluctuation function, log-scale diagram and
+    multifractal estimates (:mod:`tfhrv.analysis.multifractal_fits`)."""
     measures = record_measures(cleaned, order=opt.dfa_order,
                                vanishing_moments=opt.vanishing_moments,
                                calibration_model=opt.calibration_model)
-    fl = diag = None
+    fl = diag = mf = None
     if full:
         nn = cleaned.nn_ms
         fl = _or_none(dfa_fluctuation, nn, order=opt.dfa_order)
         diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
-    return measures, fl, diag
+        mf = record_multifractal(nn, vanishing_moments=opt.vanishing_moments)
+    return measures, fl, diag, mf
 
 
 def _fork_job(job: tuple[str, int, int]) -> tuple[str, int, int, object]:
@@ -493,12 +506,12 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
         short = _analyse_tier(cleaned, opt.short, opt, full=full, progress=progress)
         long = _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress)
         progress.stage("whole-record fits and FFT-slope verdict")
-        measures, fl, diag = _record_parts(cleaned, opt, full)
+        measures, fl, diag, mf = _record_parts(cleaned, opt, full)
     else:
-        short, long, (measures, fl, diag) = parallel
+        short, long, (measures, fl, diag, mf) = parallel
     assessment = assess_record(cleaned, long_categories=long.categories,
                                band_hz=opt.record_band_hz, order=opt.dfa_order,
                                vanishing_moments=opt.vanishing_moments,
                                thresholds=opt.thresholds,
                                calibration_model=opt.calibration_model, measures=measures)
-    return RecordAnalysis(cleaned, opt, detail, short, long, assessment, fl, diag)
+    return RecordAnalysis(cleaned, opt, detail, short, long, assessment, fl, diag, mf)

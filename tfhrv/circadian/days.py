@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from tfhrv.analysis.multifractal_fits import C2_PRIMARY, WIDTH_PRIMARY
 from tfhrv.circadian.core import cosinor, infer_rest_periods, night_day_contrast
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError
 
@@ -41,6 +42,8 @@ VARIABLES: tuple[tuple[str, str], ...] = (
     ("short", "exponent"),
     ("long", "alpha_long"),
     ("long", "exponent"),
+    ("long", "c2"),
+    ("long", "mf_width"),
     ("short", "nn_mean_ms"),
     ("short", "nn_sd_ms"),
     ("short", "lf_power"),
@@ -148,6 +151,10 @@ def read_sleep_log(path: str | Path, record_id: str, /) -> list[tuple[dt.datetim
     return out
 
 
+#: multifractal variables and the mf_estimator codes under which they are primary
+_MF_PRIMARY = {"c2": C2_PRIMARY, "mf_width": WIDTH_PRIMARY}
+
+
 def _in_window(clock_h: np.ndarray, window: tuple[float, float]) -> np.ndarray:
     a, b = window
     return ((clock_h >= a) & (clock_h < b)) if a < b else ((clock_h >= a) | (clock_h < b))
@@ -159,6 +166,11 @@ def _series(tree: xr.DataTree, tier: str, var: str) -> np.ndarray:
         return ds["band_power"].sel(band="LF").values
     if var == "hf_power":
         return ds["band_power"].sel(band="HF").values
+    if var in _MF_PRIMARY:  # multifractal: only where the window's category allows it
+        if var not in ds:  # a scan file from before the multifractal variables
+            return np.full(ds.sizes["time"], np.nan)
+        primary = np.isin(ds["mf_estimator"].values, _MF_PRIMARY[var])
+        return np.where(primary, ds[var].values, np.nan)
     return ds[var].values
 
 
@@ -382,8 +394,8 @@ UNITS = {"nn_mean_ms": "ms", "nn_sd_ms": "ms", "lf_power": "ms²", "hf_power": "
 
 
 def decimals(variable: str, /) -> int:
-    """Decimals a table shows for a variable: 0 for ms and ms², 2 for exponents."""
-    return 0 if variable in UNITS else 2
+    """Decimals a table shows for a variable: 0 for ms and ms², 3 for c2, 2 for exponents."""
+    return 0 if variable in UNITS else 3 if variable == "c2" else 2
 
 
 def fixed(v: float, digits: int = 2, /) -> str:

@@ -478,7 +478,9 @@ def study_row(tree: xr.DataTree, /) -> dict:
         ``verdict`` and ``recommended_estimator`` of the whole-record FFT-slope fitness;
         each whole-record exponent (``beta_spectral``, ``beta_wavelet``, ``alpha1``,
         ``alpha2``, ``alpha_long``) with ``<name>_ci_lower``/``_ci_upper`` (calibrated)
-        and ``<name>_block_ci_lower``/``_upper`` (over 4-h blocks);
+        and ``<name>_block_ci_lower``/``_upper`` (over 4-h blocks); the whole-record
+        multifractal ``c1``, ``c2``, ``mf_width`` with ``_ci_lower``/``_ci_upper``,
+        ``c2_slope``, ``c2_pvalue`` and ``mf_width_slope``;
         ``nonstationary_share``, ``level_effect`` with ``level_effect_ci_lower``/``_upper``
         (:func:`tfhrv.analysis.consequence.level_change_effect`);
         ``period_source`` and, per circadian variable (``exponent`` of both tiers is named
@@ -503,6 +505,12 @@ def study_row(tree: xr.DataTree, /) -> dict:
         bci = rec[name + "_block_ci"].values if name + "_block_ci" in rec else (np.nan,) * 2
         row[name + "_block_ci_lower"], row[name + "_block_ci_upper"] = (float(bci[0]),
                                                                         float(bci[1]))
+    for name in ("c1", "c2", "mf_width"):  # multifractal (tfhrv.analysis.multifractal_fits)
+        row[name] = _scalar(rec, name)
+        ci = rec[name + "_ci"].values if name + "_ci" in rec else (np.nan, np.nan)
+        row[name + "_ci_lower"], row[name + "_ci_upper"] = float(ci[0]), float(ci[1])
+    for name in ("c2_slope", "c2_pvalue", "mf_width_slope"):
+        row[name] = _scalar(rec, name)
     row["nonstationary_share"] = _scalar(rec, "nonstationary_share")
     row["level_effect"] = _scalar(rec, "level_effect")
     lci = rec["level_effect_ci"].values if "level_effect_ci" in rec else (np.nan,) * 2

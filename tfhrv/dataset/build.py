@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from tfhrv.analysis.multifractal_fits import SHORT_NOTE
 from tfhrv.analysis.pipeline import (
     EXPONENTS,
     RecordAnalysis,
@@ -30,6 +31,7 @@ from tfhrv.dataset.groups import Group, as_datatree
 from tfhrv.dataset.netcdf import file_sha256
 from tfhrv.dataset.schema import BANDS, BOUNDS, variable
 from tfhrv.estimators.loglog import ScalingFit
+from tfhrv.estimators.multifractal import DEFAULT_Q
 from tfhrv.estimators.spectral import TASK_FORCE_BANDS
 from tfhrv.signal.clean import CleanResult
 
@@ -80,7 +82,7 @@ def _time_coords(group: str, elapsed_s: np.ndarray, rec) -> dict:
 def _tier_dataset(tier: TierAnalysis, rec, group: str) -> Group:
     data = {}
     for name, val in tier.values.items():
-        data[name] = variable(group, name, val.astype(str) if name == "reason" else val)
+        data[name] = variable(group, name, val.astype(str) if val.dtype == object else val)
     coords = _time_coords(group, tier.centres_s, rec)
     coords.update({
         "band": variable(group, "band", list(BANDS)),
@@ -92,8 +94,12 @@ def _tier_dataset(tier: TierAnalysis, rec, group: str) -> Group:
         "scale": variable(group, "scale", tier.scales),
         "octave": variable(group, "octave", tier.octaves),
     })
+    if "mf_h" in tier.values:
+        coords["q"] = variable(group, "q", DEFAULT_Q)
     return Group(data, coords, {"window_s": tier.spec.window_s, "hop_s": tier.spec.hop_s,
-                                "scale_target": tier.spec.scale})
+                                "scale_target": tier.spec.scale,
+                                "multifractal": (multifractal_attrs() if "mf_h" in tier.values
+                                                 else SHORT_NOTE)})
 
 
 def _fit_curve(name: str, fit: ScalingFit) -> dict:
@@ -142,6 +148,9 @@ def _record_dataset(analysis: RecordAnalysis) -> Group:
                   "checks": json.dumps(verdict.checks, default=float)})
     data["verdict"] = (dims, code, attrs)
     data.update(_consequence_vars(analysis.assessment))
+    if analysis.multifractal is not None:
+        data.update(_multifractal_vars(analysis.multifractal))
+        coords["q"] = variable(g, "q", analysis.multifractal.q)
     qd = q.as_dict()
     for key in ("coverage", "share_kept", "ectopic_fraction", "longest_gap_s", "nn_mean_ms",
                 "nn_sd_ms", "rmssd_ms", "recorded_h", "analysable_h"):
@@ -152,6 +161,25 @@ def _record_dataset(analysis: RecordAnalysis) -> Group:
                                 "beta_spectral_band_hz": list(band) if band else [],
                                 "removed": json.dumps(qd["removed"]),
                                 "record_id": cleaned.recording.record_id})
+
+
+def multifractal_attrs() -> str:
+    """How the multifractal variables were computed (group attribute)."""
+    return ("MF-DFA-2 (Kantelhardt et al. 2002) over 16 to min(1024, N/10) beats, q = -5..5; "
+            "wavelet leaders on db3 (Wendt, Abry & Jaffard 2007) over the octaves of the "
+            "wavelet exponent; c2 and mf_width calibrated against the multifractal random "
+            "walk, c2_pvalue against the monofractal null (tfhrv/data/multifractal.npz); "
+            "primary by the stationarity category (mf_estimator)")
+
+
+def _multifractal_vars(est) -> dict:
+    """The whole-record multifractal variables (:mod:`tfhrv.analysis.multifractal_fits`)."""
+    g = "/record"
+    vals = {"c1": est.c1, "c1_ci": est.c1_ci, "c2": est.c2, "c2_ci": est.c2_ci,
+            "c2_slope": est.c2_slope, "c2_pvalue": est.c2_pvalue, "mf_width": est.width,
+            "mf_width_ci": est.width_ci, "mf_width_slope": est.width_slope, "mf_h": est.h,
+            "mf_h_ci": est.h_ci, "mf_alpha": est.alpha, "mf_f": est.f}
+    return {k: variable(g, k, np.asarray(v, dtype=np.float64)) for k, v in vals.items()}
 
 
 def _consequence_vars(assessment) -> dict:

@@ -20,6 +20,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from tfhrv.analysis.multifractal_fits import MF_ESTIMATORS
 from tfhrv.analysis.pipeline import EXPONENTS
 from tfhrv.analysis.policy import ESTIMATORS
 from tfhrv.analysis.verdict import VERDICTS
@@ -216,6 +217,48 @@ def _record() -> list[Variable]:
     return out
 
 
+def _multifractal(dim: tuple[str, ...], where: str, *, required: bool) -> list[Variable]:
+    """Multifractal variables (:mod:`tfhrv.analysis.multifractal_fits`): wavelet-leader
+    log-cumulants c1 and c2 (Wendt, Abry & Jaffard 2007) and MF-DFA-2 h(q), f(alpha) and
+    width (Kantelhardt et al. 2002), with calibrated intervals."""
+    b, q = (*dim, "bound"), (*dim, "q")
+    out = [
+        Variable("c1", dim, "1", "wavelet-leader log-cumulant c1 (about the mean Hoelder "
+                 "exponent of the integrated NN series)" + where),
+        Variable("c1_ci", b, "1", "95 % interval of c1 (SD of the monofractal null; not "
+                 "bias-corrected)" + where),
+        Variable("c2", dim, "1", "wavelet-leader log-cumulant c2 (0 for a monofractal, < 0 "
+                 "for a multifractal), calibrated" + where),
+        Variable("c2_ci", b, "1", "95 % calibrated interval of c2 (Neyman belt over the "
+                 "multifractal random walk)" + where),
+        Variable("c2_slope", dim, "1", "c2 before calibration (slope of the log-leader "
+                 "variance against ln 2^j)" + where),
+        Variable("c2_pvalue", dim, "1", "one-sided p-value of c2 < 0 against the "
+                 "monofractal null" + where),
+        Variable("mf_width", dim, "1", "MF-DFA singularity spectrum width alpha(q=-5) - "
+                 "alpha(q=5), calibrated" + where),
+        Variable("mf_width_ci", b, "1", "95 % calibrated interval of mf_width" + where),
+        Variable("mf_width_slope", dim, "1", "MF-DFA spectrum width before calibration"
+                 + where),
+        Variable("mf_h", q, "1", "MF-DFA-2 generalised Hurst exponent h(q)" + where),
+        Variable("mf_h_ci", (*q, "bound"), "1", "95 % interval of h(q) (SD of the "
+                 "monofractal null; not bias-corrected)" + where),
+        Variable("mf_alpha", q, "1", "Hoelder exponent alpha(q) = d tau / d q, tau(q) = "
+                 "q h(q) - 1" + where),
+        Variable("mf_f", q, "1", "singularity spectrum f(alpha(q))" + where),
+    ]
+    out = [Variable(v.name, v.dims, v.units, v.long_name, required=required) for v in out]
+    if dim:
+        out += [
+            Variable("mf_estimator", dim, None, "multifractal estimate primary in the "
+                     "window (by its stationarity category)", flags=MF_ESTIMATORS,
+                     required=required),
+            Variable("mf_reason", dim, None, "why the multifractal estimate is or is not "
+                     "primary", required=required),
+        ]
+    return [Variable("q", ("q",), "1", "moment order q", required=required), *out]
+
+
 def _nn() -> list[Variable]:
     b = ("beat",)
     return [
@@ -236,8 +279,8 @@ def _index(vars_: list[Variable]) -> MappingProxyType:
 GROUPS: MappingProxyType = MappingProxyType({
     "/nn": _index(_nn()),
     "/short": _index(_tier()),
-    "/long": _index(_tier()),
-    "/record": _index(_record()),
+    "/long": _index(_tier() + _multifractal(("time",), "", required=True)),
+    "/record": _index(_record() + _multifractal((), ", whole record", required=False)),
 })
 #: Root attributes every scan file carries (provenance).
 ROOT_ATTRS: tuple[str, ...] = ("Conventions", "tfhrv_version", "source_file", "source_sha256",

@@ -25,6 +25,7 @@ from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 
 __all__ = [
     "LogscaleDiagram",
+    "dwt_details",
     "logscale_bias",
     "logscale_diagram",
     "logscale_variance",
@@ -161,6 +162,51 @@ def _valid_intervals(n: int, filter_len: int, levels: int) -> list[tuple[int, in
     return out
 
 
+def dwt_details(
+    x: np.ndarray, /, *, vanishing_moments: int = 3, wavelet_family: WaveletFamily = "db",
+) -> tuple[str, tuple[np.ndarray, ...], int]:
+    """Boundary-free DWT detail coefficients of ``x``, finest octave first.
+
+    The transform behind :func:`logscale_diagram` (and the wavelet leaders of
+    :mod:`tfhrv.estimators.multifractal`): the end-to-end line is removed, the periodised
+    DWT is taken, and at each octave only the coefficients whose support does not wrap
+    are kept (see :func:`logscale_diagram`, Notes).
+
+    Returns
+    -------
+    wavelet : str
+        PyWavelets name, e.g. ``"db3"``.
+    details : tuple of numpy.ndarray
+        d_{j,k} for octaves j = 1, 2, ... (orthonormal, L2 normalisation); an octave may
+        be empty.
+    n_obs : int
+        Length of ``x``.
+
+    Examples
+    --------
+    >>> name, d, n = dwt_details(np.random.default_rng(0).standard_normal(1024))
+    >>> name, n, d[0].size
+    ('db3', 1024, 510)
+    """
+    check_choice(wavelet_family, "wavelet_family", _FAMILIES)
+    check_choice(check_int(vanishing_moments, "vanishing_moments"), "vanishing_moments",
+                 _MOMENTS[wavelet_family])
+    name = f"{wavelet_family}{int(vanishing_moments)}"
+    wav = pywt.Wavelet(name)
+    flen = wav.dec_len
+    x = as_1d_float(x, "x", min_len=2 * flen)
+    if np.ptp(x) == 0:
+        raise InsufficientDataError("x must not be constant (no fluctuation to scale)")
+    n = x.size
+    ramp = np.linspace(x[0], x[-1], n)
+    levels = pywt.dwt_max_level(n, flen)
+    coeffs = pywt.wavedec(x - ramp, wav, mode="periodization", level=levels)
+    details = coeffs[:0:-1]  # finest (octave 1) first
+    kept = tuple(d[max(lo, 0): hi + 1] for d, (lo, hi) in
+                 zip(details, _valid_intervals(n, flen, levels), strict=True))
+    return name, kept, n
+
+
 def logscale_diagram(
     x: np.ndarray, /, *, vanishing_moments: int = 3, wavelet_family: WaveletFamily = "db",
 ) -> LogscaleDiagram:
@@ -213,25 +259,10 @@ def logscale_diagram(
     >>> bool(abs(d.energy[2] - 1.0) < 0.3)  # white noise: unit energy at every octave
     True
     """
-    check_choice(wavelet_family, "wavelet_family", _FAMILIES)
-    check_choice(check_int(vanishing_moments, "vanishing_moments"), "vanishing_moments",
-                 _MOMENTS[wavelet_family])
-    name = f"{wavelet_family}{int(vanishing_moments)}"
-    wav = pywt.Wavelet(name)
-    flen = wav.dec_len
-    x = as_1d_float(x, "x", min_len=2 * flen)
-    if np.ptp(x) == 0:
-        raise InsufficientDataError("x must not be constant (no fluctuation to scale)")
-    n = x.size
-    ramp = np.linspace(x[0], x[-1], n)
-    levels = pywt.dwt_max_level(n, flen)
-    coeffs = pywt.wavedec(x - ramp, wav, mode="periodization", level=levels)
-    details = coeffs[:0:-1]  # finest (octave 1) first
+    name, details, n = dwt_details(x, vanishing_moments=vanishing_moments,
+                                   wavelet_family=wavelet_family)
     octs, counts, energy = [], [], []
-    for j, (d, (lo, hi)) in enumerate(
-        zip(details, _valid_intervals(n, flen, levels), strict=True), start=1
-    ):
-        kept = d[max(lo, 0): hi + 1]
+    for j, kept in enumerate(details, start=1):
         if kept.size < 2:
             break
         octs.append(j)

@@ -14,7 +14,7 @@ __all__ = ["KEY_VARIABLES", "plot_comparison"]
 
 #: Variables drawn in ``comparison.png`` (those present with data).
 KEY_VARIABLES = ("nn_sd_ms", "rmssd_ms", "nn_mean_ms", "alpha1", "alpha2", "beta_spectral",
-                 "alpha_long", "alpha1_night_minus_day")
+                 "alpha_long", "alpha1_night_minus_day", "c2", "mf_width")
 
 
 def plot_comparison(study: pd.DataFrame, comparison: pd.DataFrame, path: str | Path, /, *,

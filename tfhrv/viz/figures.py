@@ -60,6 +60,7 @@ from tfhrv.viz.figkit import (
     _time_axis,
     _values,
 )
+from tfhrv.viz.multifractal import multifractal_sentence, multifractal_spectrum
 
 __all__ = [
     "FIGURES",
@@ -67,6 +68,8 @@ __all__ = [
     "OKABE_ITO",
     "dfa",
     "logscale",
+    "multifractal_sentence",
+    "multifractal_spectrum",
     "overview",
     "circadian",
     "save_all",
@@ -738,6 +741,7 @@ FIGURES = {
     "spectrum": spectrum,
     "dfa": dfa,
     "logscale": logscale,
+    "multifractal": multifractal_spectrum,
 }
 
 

@@ -109,6 +109,16 @@ _CONTEXT = (
 )
 
 _REFERENCES = (
+    "Kantelhardt JW, Zschiegner SA, Koscielny-Bunde E, Havlin S, Bunde A, Stanley HE. "
+    "Multifractal detrended fluctuation analysis of nonstationary time series. Physica A "
+    "2002;316:87–114. doi:10.1016/S0378-4371(02)01383-3",
+    "Wendt H, Abry P, Jaffard S. Bootstrap for empirical multifractal analysis. IEEE Signal "
+    "Process Mag 2007;24(4):38–48. doi:10.1109/MSP.2007.4286563",
+    "Bacry E, Delour J, Muzy JF. Multifractal random walk. Phys Rev E 2001;64:026103. "
+    "doi:10.1103/PhysRevE.64.026103",
+    "Ivanov PCh, Amaral LAN, Goldberger AL, Havlin S, Rosenblum MG, Struzik ZR, Stanley HE. "
+    "Multifractality in human heartbeat dynamics. Nature 1999;399:461–465. "
+    "doi:10.1038/20924",
     "Task Force of the ESC and NASPE. Heart rate variability: standards of measurement, "
     "physiological interpretation, and clinical use. Circulation 1996;93:1043–1065. "
     "doi:10.1161/01.CIR.93.5.1043",
@@ -158,6 +168,13 @@ _REFERENCES = (
 )
 
 _METHODS = (
+    "Multifractal scaling (4-h windows and the whole record; not on 5-min windows, too "
+    "short): MF-DFA-2 h(q), q = -5..5, over 16 to min(1024, N/10) beats, and the "
+    "Legendre-transformed spectrum f(α) with its width (Kantelhardt et al. 2002); "
+    "wavelet-leader log-cumulants c1 and c2 on db3 (Wendt, Abry & Jaffard 2007), c2 = 0 "
+    "for a monofractal and < 0 for a multifractal. c2 and the width are calibrated "
+    "against the multifractal random walk (Bacry, Delour & Muzy 2001), the p-value of "
+    "c2 < 0 against monofractal 1/f^β noise of the record's exponent.",
     "Cleaning: non-sinus beats and the intervals next to them are removed, as are intervals "
     "outside the physiological range and sudden relative changes; stretches without beats "
     "are gaps (parameters below).",
@@ -742,6 +759,11 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
          "F(n) with the α1, α2 and long-range lines; below, the local slope."),
         ("logscale", plots.logscale, "wavelet log-scale diagram",
          "y_j with ±1.96 SD bars and the weighted line over the octaves used."),
+        ("multifractal", plots.multifractal_spectrum, "multifractal spectrum h(q) and f(α)",
+         "Left: MF-DFA-2 h(q) of the whole record with the 95 % interval of a monofractal "
+         "of the same exponent (band) and of each 4-h window (blue: primary for its "
+         "stationarity category; grey: not). A flat h(q) is monofractal. Right: f(α), "
+         "with the calibrated c2 and width."),
     )
     figs = dict(zip((sp[0] for sp in specs),
                     _render_figures(tree, specs, dpi, workers, progress or SILENT),
@@ -765,6 +787,9 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
         "<section id=\"time-resolved\"><h2>Time-resolved figures</h2>",
         figs["overview"], figs["scale_short"], figs["scale_long"], figs["stationarity"],
         "<h3>Whole-record fits</h3>", figs["spectrum"], figs["dfa"], figs["logscale"],
+        "<h3>Multifractal scaling</h3>",
+        f"<p class=\"mf-sentence\">{_e(plots.multifractal_sentence(tree))}</p>",
+        figs["multifractal"],
         "</section>",
         "<section id=\"circadian\"><h2>Day/night contrasts and 24-h rhythm</h2>",
         figs["circadian"],
