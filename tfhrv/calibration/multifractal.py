@@ -74,6 +74,7 @@ __all__ = [
     "MultifractalTable",
     "estimate_multifractal",
     "load_multifractal_table",
+    "multifractal_table_sha256",
     "raw_estimates",
 ]
 
@@ -101,6 +102,15 @@ class MultifractalTable:
     null_h: np.ndarray
     mrw_c2: np.ndarray
     mrw_width: np.ndarray
+
+
+@functools.cache
+def multifractal_table_sha256() -> str:
+    """SHA-256 (hex) of the shipped multifractal table file (provenance, cohort resume)."""
+    import hashlib
+
+    ref = resources.files("tfhrv").joinpath("data", _TABLE_FILE)
+    return hashlib.sha256(ref.read_bytes()).hexdigest()
 
 
 @functools.cache

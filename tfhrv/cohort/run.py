@@ -383,13 +383,15 @@ def parameter_hash(options: CohortOptions, entry: ManifestEntry, /) -> str:
     """SHA-256 (hex) of the JSON of all options, the record's own inputs and the version.
 
     The record id, start and sleep-log content enter because they change the output, and so
-    does the calibration table file; the group and extra columns do not (they are read
+    does each calibration table file; the group and extra columns do not (they are read
     from the manifest at every run).
     """
     from tfhrv import __version__
     from tfhrv.calibration.calibrate import table_sha256
+    from tfhrv.calibration.multifractal import multifractal_table_sha256
 
     blob = {"tfhrv_version": __version__, "calibration_sha256": table_sha256(),
+            "multifractal_sha256": multifractal_table_sha256(),
             "clean": asdict(options.clean),
             "scan": asdict(options.scan), "circadian": asdict(options.circadian),
             "record": entry.record, "start": entry.start, "tz": entry.tz,

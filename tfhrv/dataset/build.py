@@ -42,10 +42,11 @@ __all__ = ["build_groups", "build_tree", "provenance", "scan"]
 
 
 def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
-    """Root attributes: version, input, parameters as JSON, the calibration table's
-    SHA-256, creation time, caution."""
+    """Root attributes: version, input, parameters as JSON, the SHA-256 of the calibration
+    tables, creation time, caution."""
     from tfhrv import __version__
     from tfhrv.calibration.calibrate import table_sha256
+    from tfhrv.calibration.multifractal import multifractal_table_sha256
 
     return {
         "Conventions": "CF-1.10",
@@ -56,6 +57,7 @@ def provenance(*, source: str | None, parameters: dict, history: str) -> dict:
         else file_sha256(source),
         "parameters": json.dumps(parameters, sort_keys=True, default=str),
         "calibration_table_sha256": table_sha256(),
+        "multifractal_table_sha256": multifractal_table_sha256(),
         "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
         "caution": CAUTION,
         "history": history,
