@@ -22,7 +22,7 @@ import numpy as np
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.core.validation import as_1d_float, check_int, check_range, readonly
 from tfhrv.estimators.dfa import box_variances
-from tfhrv.estimators.wavelet import DEFAULT_J1, MIN_COEFFICIENTS, dwt_details
+from tfhrv.estimators.wavelet import DEFAULT_J1, MIN_COEFFICIENTS, dwt_details, octave_pair
 
 __all__ = [
     "DEFAULT_Q",
@@ -429,12 +429,7 @@ def leader_cumulants(
         enough = j[nj >= MIN_COEFFICIENTS]
         j1, j2 = DEFAULT_J1, int(enough.max()) if enough.size else 0
     else:
-        try:
-            j1, j2 = (int(v) for v in octaves)
-        except (TypeError, ValueError) as exc:
-            raise TypeError(f"octaves must be a (j1, j2) pair of ints, got {octaves!r}") from exc
-        if not 1 <= j1 < j2:
-            raise ValueError(f"octaves must satisfy 1 <= j1 < j2, got {octaves!r}")
+        j1, j2 = octave_pair(octaves)
     used = (j >= j1) & (j <= j2)
     if used.sum() < 2 or (j.size and j2 > j.max()):
         raise InsufficientDataError(

@@ -29,6 +29,7 @@ __all__ = [
     "logscale_bias",
     "logscale_diagram",
     "logscale_variance",
+    "octave_pair",
     "octave_to_frequency_hz",
     "wavelet_exponent",
 ]
@@ -207,6 +208,17 @@ def dwt_details(
     return name, kept, n
 
 
+def octave_pair(octaves) -> tuple[int, int]:
+    """A fitted octave range ``(j1, j2)`` checked: ints with 1 <= j1 < j2."""
+    try:
+        j1, j2 = (int(v) for v in octaves)
+    except (TypeError, ValueError) as exc:
+        raise TypeError(f"octaves must be a (j1, j2) pair of ints, got {octaves!r}") from exc
+    if not 1 <= j1 < j2:
+        raise ValueError(f"octaves must satisfy 1 <= j1 < j2, got {octaves!r}")
+    return j1, j2
+
+
 def logscale_diagram(
     x: np.ndarray, /, *, vanishing_moments: int = 3, wavelet_family: WaveletFamily = "db",
 ) -> LogscaleDiagram:
@@ -370,12 +382,7 @@ def wavelet_exponent(
                 f"fit needs octaves {j1}..{j1 + 1} or more"
             )
     else:
-        try:
-            j1, j2 = (int(v) for v in octaves)
-        except (TypeError, ValueError) as exc:
-            raise TypeError(f"octaves must be a (j1, j2) pair of ints, got {octaves!r}") from exc
-        if not 1 <= j1 < j2:
-            raise ValueError(f"octaves must satisfy 1 <= j1 < j2, got {octaves!r}")
+        j1, j2 = octave_pair(octaves)
         if j2 > int(j.max()):
             raise InsufficientDataError(
                 f"octaves={octaves!r} asks for octave {j2} but x of length {d.n_obs} has "
