@@ -282,14 +282,16 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
         raise ValueError(f"{path}: the output folder does not exist")
 
 
-def _scan_recording(rec, options, progress, *, args: argparse.Namespace, what: str = ""):
-    """clean -> scan, with stages; a record too short for any window says so, naming it."""
-    from tfhrv.dataset.build import scan
+def _analysed(rec, options, progress, *, args: argparse.Namespace, what: str):
+    """clean -> full record analysis, with stages; a record too short for any window says
+    so, naming it."""
+    from tfhrv.analysis.pipeline import analyse_record
 
     progress.stage("clean")
     cleaned = _clean(rec, args)
     _check_long_enough(cleaned, options, what=what)
-    return scan(cleaned, options=options, progress=progress, workers=_workers())
+    return analyse_record(cleaned, options=options, detail="full", progress=progress,
+                          workers=_workers())
 
 
 def _check_long_enough(cleaned, options, *, what: str) -> None:
@@ -311,7 +313,6 @@ def _check_long_enough(cleaned, options, *, what: str) -> None:
 
 def _cmd_scan(args: argparse.Namespace) -> int:
     # plain groups written directly: a scan never imports xarray (tfhrv.dataset.groups)
-    from tfhrv.analysis.pipeline import analyse_record
     from tfhrv.dataset.build import build_groups
     from tfhrv.dataset.netcdf import write_tree
 
@@ -321,11 +322,7 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
-    progress.stage("clean")
-    cleaned = _clean(rec, args)
-    _check_long_enough(cleaned, options, what="a scan")
-    groups = build_groups(analyse_record(cleaned, options=options, detail="full",
-                                         progress=progress, workers=_workers()))
+    groups = build_groups(_analysed(rec, options, progress, args=args, what="a scan"))
     progress.stage(f"write {args.output}")
     write_tree(groups, args.output)
     n_short, n_long = (groups[g].sizes()["time"] for g in ("/short", "/long"))
@@ -390,8 +387,9 @@ def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None, *,
 
     from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
     from tfhrv.core.errors import InsufficientDataError
+    from tfhrv.dataset.build import build_tree
 
-    tree = _scan_recording(rec, options, progress, args=args, what="a report")
+    tree = build_tree(_analysed(rec, options, progress, args=args, what="a report"))
     copt = circadian_options or CircadianOptions()
     progress.stage("day/night contrasts (block bootstrap) and cosinor")
     try:

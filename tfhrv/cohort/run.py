@@ -439,7 +439,7 @@ def process_record(entry: ManifestEntry, outdir: str | Path, /, *, options: Coho
             tree.attrs[_SUMMARY_ATTR] = _summary_json(result)
             stage = "write"
             with OutputSet() as staged:  # the file, its report and their checksums, or none
-                data = _netcdf_bytes(tree)
+                data = netcdf_bytes(tree)
                 staged.add(out, write_bytes(data))
                 sums = {out.name: hashlib.sha256(data).hexdigest()}
                 if options.report:
@@ -645,17 +645,6 @@ def _run_one(entry: ManifestEntry, outdir: str, options: CohortOptions, param_ha
     res = process_record(entry, outdir, options=options, param_hash=param_hash)
     res.update(pid=os.getpid(), peak_rss_mb=_peak_rss_mb())
     return res
-
-
-def _netcdf_bytes(tree: xr.DataTree) -> bytes:
-    """:func:`tfhrv.dataset.netcdf.netcdf_bytes` inside a dask worker: xarray takes a
-    distributed write lock named after the target when a distributed client is active,
-    which an in-memory target cannot name; nothing here is chunked, so the local
-    scheduler's lock is the right one."""
-    import dask
-
-    with dask.config.set(scheduler="synchronous"):
-        return netcdf_bytes(tree)
 
 
 def _checksum_path(outdir: Path, entry: ManifestEntry) -> Path:

@@ -308,7 +308,7 @@ def _decoded(d) -> tuple[np.ndarray, dict]:
     """Values and attributes of one stored variable, CF-decoded as :func:`_cf_variable`
     encodes them (and as xarray decodes them)."""
     attrs = {k: _attr_decoded(v) for k, v in d.attrs.items() if k not in _INTERNAL_ATTRS}
-    if d.dtype.kind == "O" or d.dtype.kind == "S":
+    if d.dtype.kind in "OS":
         data = d.asstr()[()]
         return np.asarray(data, dtype=str) if np.ndim(data) else np.str_(data), attrs
     data = d[()]
