@@ -27,6 +27,7 @@ import xarray as xr
 
 from tfhrv.calibration.calibrate import interval_text
 from tfhrv.core.caution import CAUTION
+from tfhrv.viz.figkit import warm_up
 
 __all__ = ["SECTIONS", "build_report", "write_report"]
 
@@ -682,6 +683,7 @@ def _render_figures(tree: xr.DataTree, specs: tuple, dpi: float, workers: int,
     _FORK_STATE.update(tree=tree, specs=specs, dpi=dpi)
     try:
         if workers > 1 and "fork" in mp.get_all_start_methods():
+            warm_up()  # loaded once here, inherited by the workers
             with mp.get_context("fork").Pool(min(workers, len(specs))) as pool:
                 return list(progress.track(pool.imap(_render_one, range(len(specs))),
                                            total=len(specs), label="figures"))
