@@ -110,3 +110,26 @@ def test_circadian_group_keeps_the_periods_figures_shade(day_worker):
     assert label == "rest period (sleep log)"
     # without the group the figures fall back to the default clock night
     assert _rest(tree)[3].startswith("night 00:00")
+
+
+def test_circadian_group_follows_the_schema_and_is_checked(day_worker):
+    # every column of the /circadian group is declared (long_name, units where one unit
+    # applies); validate() checks the group when a file has it, and names what is wrong
+    from tfhrv.dataset.schema import OPTIONAL_GROUPS, problems
+
+    _, tree = day_worker
+    opt = CircadianOptions(n_boot=199)
+    t = tree.copy()
+    t["/circadian"] = xr.DataTree(circadian_dataset(circadian_table(t, options=opt), opt,
+                                                    tree=t))
+    assert problems(t) == []
+    ds = t["/circadian"].to_dataset()
+    assert set(ds.variables) == set(OPTIONAL_GROUPS["/circadian"])
+    assert ds["acrophase_h"].attrs["units"] == "h"
+    assert "units" not in ds["day_mean"].attrs  # per row: the units of the row's variable
+    bad = ds.assign(extra=("row", ds["day_mean"].values),
+                    acrophase_h=ds["acrophase_h"].assign_attrs(units="deg"))
+    t["/circadian"] = xr.DataTree(bad)
+    found = problems(t)
+    assert any("undeclared variables: extra" in p for p in found)
+    assert any("/circadian/acrophase_h has units 'deg'" in p for p in found)

@@ -24,6 +24,7 @@ import xarray as xr
 from tfhrv.analysis.multifractal_fits import C2_PRIMARY, WIDTH_PRIMARY
 from tfhrv.circadian.core import cosinor, infer_rest_periods, night_day_contrast
 from tfhrv.core.errors import InsufficientDataError, RecordFormatError
+from tfhrv.dataset.schema import variable
 
 __all__ = [
     "CircadianOptions",
@@ -368,20 +369,14 @@ def circadian_dataset(table: pd.DataFrame, options: CircadianOptions, *,
     if tree is not None:
         night, day, _, source = _periods(tree, "short", options, sleep_log)
         label = _period_label(source, options)
-        for name, mask, what in (("short_night", night, "night/rest"), ("short_day", day, "day")):
-            ds[name] = ("short_window", mask.astype(np.int8), {
-                "long_name": f"short window lies in the {what} period used by the contrasts",
-                "flag_values": np.array([0, 1], np.int8), "flag_meanings": "no yes",
-                "period_source": source, "period_label": label})
-    for name in ds.data_vars:
+        for name, mask in (("short_night", night), ("short_day", day)):
+            ds[name] = ("short_window", mask.astype(np.int8),
+                        {"period_source": source, "period_label": label})
+    for name in ds.variables:
         if ds[name].dtype == object:
             ds[name] = ds[name].astype(str)
-        if name not in ("short_night", "short_day"):
-            ds[name].attrs["long_name"] = name.replace("_", " ")
-    for name in ("acrophase_h", "acrophase_low", "acrophase_high", "acrophase_h2",
-                 "acrophase_low2", "acrophase_high2"):
-        if name in ds:
-            ds[name].attrs["units"] = "h"
+        # long_name, units and flags as declared (KeyError for an undeclared column)
+        ds[name].attrs.update(variable("/circadian", name, None)[2])
     ds.attrs["options"] = str(asdict(options))
     ds.attrs["method"] = ("night - day difference with a moving-block bootstrap interval "
                           "(Kunsch 1989); Hedges' g; single and 24 + 12 h cosinor (Nelson et "

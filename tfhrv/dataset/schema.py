@@ -38,6 +38,7 @@ __all__ = [
     "ESTIMATORS",
     "EXPONENTS",
     "GROUPS",
+    "OPTIONAL_GROUPS",
     "SchemaError",
     "VERDICTS",
     "Variable",
@@ -259,6 +260,59 @@ def _multifractal(dim: tuple[str, ...], where: str, *, required: bool) -> list[V
     return [Variable("q", ("q",), "1", "moment order q", required=required), *out]
 
 
+def _circadian() -> list[Variable]:
+    """The ``/circadian`` group (:func:`tfhrv.circadian.days.circadian_dataset`): one row
+    per (tier, variable, day) of the day/night contrast and cosinor table.  Values are in
+    the units of the row's variable (ms for ``nn_mean_ms``/``nn_sd_ms``, ms² for the band
+    powers, 1 for exponents and c2), so those columns carry no single ``units``."""
+    r = ("row",)
+    own = " (units of the row's variable)"
+    out = [
+        Variable("row", r, None, "table row"),
+        Variable("tier", r, None, "window tier of the row (short or long)"),
+        Variable("variable", r, None, "per-window variable of the row"),
+        Variable("day", r, None, "'all' (pooled) or the day number"),
+        Variable("period_source", r, None, "where the night/rest and day periods came from"),
+        Variable("day_mean", r, None, "mean over day windows" + own),
+        Variable("night_mean", r, None, "mean over night/rest windows" + own),
+        Variable("difference", r, None, "night - day difference" + own),
+        Variable("difference_low", r, None, "lower end of the 95 % moving-block bootstrap "
+                 "interval of the difference" + own),
+        Variable("difference_high", r, None, "upper end of the 95 % moving-block bootstrap "
+                 "interval of the difference" + own),
+        Variable("effect_size", r, "1", "Hedges' g of the night - day difference"),
+        Variable("n_day", r, "1", "day windows used"),
+        Variable("n_night", r, "1", "night/rest windows used"),
+        Variable("n_excluded", r, "1", "windows left out (no value or low coverage)"),
+        Variable("contrast_note", r, None, "why the contrast is missing, if it is"),
+        Variable("acrophase_reference", r, None, "clock time or hours from start"),
+    ]
+    for suffix, model in (("", "24-h cosinor"), ("2", "24 + 12 h cosinor")):
+        if not suffix:
+            out += [Variable("mesor", r, None, f"MESOR of the {model}" + own),
+                    Variable("mesor_low", r, None, "lower 95 % limit of the MESOR" + own),
+                    Variable("mesor_high", r, None, "upper 95 % limit of the MESOR" + own)]
+        out += [
+            Variable("amplitude" + suffix, r, None, f"amplitude of the {model}" + own),
+            Variable("amplitude_low" + suffix, r, None,
+                     f"lower 95 % limit of the {model} amplitude" + own),
+            Variable("amplitude_high" + suffix, r, None,
+                     f"upper 95 % limit of the {model} amplitude" + own),
+            Variable("acrophase_h" + suffix, r, "h", f"acrophase of the {model}"),
+            Variable("acrophase_low" + suffix, r, "h",
+                     f"lower 95 % limit of the {model} acrophase"),
+            Variable("acrophase_high" + suffix, r, "h",
+                     f"upper 95 % limit of the {model} acrophase"),
+            Variable("cosinor_p" + suffix, r, "1",
+                     f"p-value of the zero-amplitude F-test of the {model}"),
+        ]
+    w = ("short_window",)
+    for name, what in (("short_night", "night/rest"), ("short_day", "day")):
+        out.append(Variable(name, w, None, f"short window lies in the {what} period used by "
+                            "the contrasts", flags=("no", "yes"), required=False))
+    return out
+
+
 def _nn() -> list[Variable]:
     b = ("beat",)
     return [
@@ -282,6 +336,8 @@ GROUPS: MappingProxyType = MappingProxyType({
     "/long": _index(_tier() + _multifractal(("time",), "", required=True)),
     "/record": _index(_record() + _multifractal((), ", whole record", required=False)),
 })
+#: group path -> {variable name -> Variable}; groups a file may have (checked when present).
+OPTIONAL_GROUPS: MappingProxyType = MappingProxyType({"/circadian": _index(_circadian())})
 #: Root attributes every scan file carries (provenance).
 ROOT_ATTRS: tuple[str, ...] = ("Conventions", "tfhrv_version", "source_file", "source_sha256",
                                "parameters", "created", "caution", "history", "record_id",
@@ -295,7 +351,7 @@ def variable(group: str, name: str, data, /, *, dims: tuple[str, ...] | None = N
     Raises ``KeyError`` for a name the schema does not declare (so nothing undeclared is
     written).  ``dims`` may be given for variables whose dimension name is per exponent.
     """
-    decl = GROUPS[group][name]
+    decl = (GROUPS.get(group) or OPTIONAL_GROUPS[group])[name]
     return (decl.dims if dims is None else dims), data, decl.attrs()
 
 
@@ -316,7 +372,8 @@ def problems(tree: xr.DataTree, /) -> list[str]:
     missing_attrs = [a for a in ROOT_ATTRS if a not in tree.attrs]
     if missing_attrs:
         out.append("root attributes missing: " + ", ".join(missing_attrs))
-    for group, decls in GROUPS.items():
+    present = {g: d for g, d in OPTIONAL_GROUPS.items() if g.strip("/") in tree.children}
+    for group, decls in {**GROUPS, **present}.items():
         if group.strip("/") not in tree.children:
             out.append(f"group {group} missing")
             continue
