@@ -71,6 +71,7 @@ import re
 import warnings
 import zlib
 from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal
 
@@ -542,60 +543,118 @@ def _sniff_delimiter(header: str) -> str:
     return best if counts[best] > 0 else ","
 
 
-def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, max_span,
-                zone) -> Recording:
+@dataclass(frozen=True, slots=True)
+class _TableColumns:
+    """Where the columns of a table export are: its delimiter, header and the index of the
+    beat-time, clock, interval and label columns (None when absent)."""
+
+    sep: str
+    header: list[str]
+    time: int | None
+    clock: int | None
+    interval: int | None
+    label: int | None
+
+
+def _table_columns(body: _Lines, name: str, delimiter, columns) -> _TableColumns:
+    """The delimiter (given or sniffed from the header) and the columns the table holds."""
     sep = delimiter or _sniff_delimiter(body.lines[0])
     header = [h.strip() for h in body.lines[0].split(sep)]
     if len(header) > 64:
         raise RecordFormatError(name, f"the header has {len(header)} columns (at most 64 "
                                 "are read); is this a beat-interval table?", line=body.numbers[0])
-    nf = len(header)
-    rows = body.lines[1:]
-    numbers = body.numbers[1:]
-    if not rows:
+    if len(body.lines) < 2:
         raise RecordFormatError(name, "has a header but no data rows", line=body.numbers[0])
     want_time, want_clock, want_interval, want_label = columns
-    i_time = _pick(header, want_time, _TIME_NAMES, name, "beat time", "--time-column")
-    i_clock = _pick(header, want_clock, _CLOCK_NAMES, name, "clock timestamp",
-                    "--clock-column")
-    i_rr = _pick(header, want_interval, _INTERVAL_NAMES, name, "interval",
-                 "--interval-column")
-    i_lab = _pick(header, want_label, _LABEL_NAMES, name, "beat label", "--label-column")
-    if i_time is None and i_clock is None and i_rr is None:
+    found = _TableColumns(
+        sep, header,
+        _pick(header, want_time, _TIME_NAMES, name, "beat time", "--time-column"),
+        _pick(header, want_clock, _CLOCK_NAMES, name, "clock timestamp", "--clock-column"),
+        _pick(header, want_interval, _INTERVAL_NAMES, name, "interval", "--interval-column"),
+        _pick(header, want_label, _LABEL_NAMES, name, "beat label", "--label-column"))
+    if found.time is None and found.clock is None and found.interval is None:
         raise RecordFormatError(
             name, "no beat-time, clock or interval column found among "
             f"{short_text(', '.join(header), 200)}; name them (e.g. beat_time_s, rr_ms, "
             "label) or use --time-column/--interval-column", line=body.numbers[0])
-    _check_truncated(body, name, nf, sep)
+    return found
+
+
+def _table_fields(body: _Lines, name: str, sep: str, n_fields: int) -> list[list[str]]:
+    """The data rows split into columns, after checking that every row has the header's
+    number of fields (the first row that has not is named)."""
+    _check_truncated(body, name, n_fields, sep)
+    rows, numbers = body.lines[1:], body.numbers[1:]
     counts = np.fromiter((r.count(sep) for r in rows), dtype=np.int64, count=len(rows))
-    wrong = counts != nf - 1
+    wrong = counts != n_fields - 1
     if wrong.any():
         i = int(np.argmax(wrong))
         raise RecordFormatError(
-            name, f"expected {nf} fields as in the header, got {counts[i] + 1}", line=numbers[i])
+            name, f"expected {n_fields} fields as in the header, got {counts[i] + 1}",
+            line=numbers[i])
     flat = sep.join(rows).split(sep)
-    cols = [flat[k::nf] for k in range(nf)]
+    return [flat[k::n_fields] for k in range(n_fields)]
+
+
+def _table_intervals(tokens: list[str], column: str, numbers: list[int], name: str,
+                     units, decimal_comma: bool, meta: dict) -> np.ndarray:
+    """The interval column in ms: units from ``units``, the column name (``_s``/``_ms``)
+    or the values, checked positive and not mixing seconds and milliseconds."""
+    rr_raw = _to_floats(tokens, numbers, name, f"column {column!r}", decimal_comma)
+    _check_positive(rr_raw, numbers, name)
+    hname = _norm(column)
+    unit = units or ("s" if hname.endswith("_s") else "ms" if hname.endswith("_ms") else None)
+    unit = unit or _infer_units(rr_raw, name, f"column {column!r}")
+    meta["interval_unit"] = unit
+    _check_mixed_units(rr_raw, unit, numbers, name)
+    return rr_raw * (1000.0 if unit == "s" else 1.0)
+
+
+def _check_beat_times(t: np.ndarray, numbers: list[int], name: str, max_span: float, *,
+                      from_clock: bool) -> None:
+    """Beat times must increase and stay within ``max_span``."""
+    steps = np.diff(t)
+    bad = steps <= 0
+    if bad.any():
+        i = int(np.argmax(bad)) + 1
+        kind = "repeats" if steps[i - 1] == 0 else "goes backwards"
+        hint = ("; if the clocks fell back for daylight saving, give the time zone "
+                "with --tz" if from_clock and kind == "goes backwards" else "")
+        raise RecordFormatError(name, f"beat time {kind} ({t[i - 1]:g} then {t[i]:g})"
+                                + hint, line=numbers[i])
+    _check_span(t, numbers, name, max_span, "a beat time")
+
+
+def _table_labels(tokens: list[str], n_intervals: int, name: str, meta: dict) -> np.ndarray:
+    """The beat labels, one per interval (a label column that also labels the first beat,
+    which ends no interval, loses its first entry)."""
+    labels = np.char.strip(np.char.strip(np.array(tokens, dtype=str)), '"')
+    if n_intervals < labels.size:
+        labels = labels[1:]
+    return _check_labels(labels, name, meta)
+
+
+def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, max_span,
+                zone) -> Recording:
+    """A delimited table with a header: beat times, clock times and/or intervals, and
+    optionally labels (columns found by name, :func:`_table_columns`)."""
+    col = _table_columns(body, name, delimiter, columns)
+    header, numbers = col.header, body.numbers[1:]
+    cols = _table_fields(body, name, col.sep, len(header))
+    i_time, i_clock, i_rr = col.time, col.clock, col.interval
     sample = [tok for i in (i_time, i_rr) if i is not None for tok in cols[i][:50]]
-    decimal_comma = decimal == "," or (decimal is None and sep != "," and any(
+    decimal_comma = decimal == "," or (decimal is None and col.sep != "," and any(
         "," in tok for tok in sample))
-    meta: dict[str, object] = {"format": "table", "delimiter": sep,
+    meta: dict[str, object] = {"format": "table", "delimiter": col.sep,
                                "columns": ",".join(header)}
     # a "time" column holding clock strings is a clock column
     if i_time is not None and i_clock is None and ":" in cols[i_time][0]:
         i_clock, i_time = i_time, None
     rr = None
     if i_rr is not None:
-        rr_raw = _to_floats(cols[i_rr], numbers, name, f"column {header[i_rr]!r}", decimal_comma)
-        _check_positive(rr_raw, numbers, name)
-        hname = _norm(header[i_rr])
-        unit = units or ("s" if hname.endswith("_s") else "ms" if hname.endswith("_ms") else None)
-        unit = unit or _infer_units(rr_raw, name, f"column {header[i_rr]!r}")
-        meta["interval_unit"] = unit
-        _check_mixed_units(rr_raw, unit, numbers, name)
-        rr = rr_raw * (1000.0 if unit == "s" else 1.0)
-    start = None
-    t = None
-    clock = None
+        rr = _table_intervals(cols[i_rr], header[i_rr], numbers, name, units, decimal_comma,
+                              meta)
+    start = t = clock = None
     if i_clock is not None:
         t, start, clock = _clock_to_seconds(cols[i_clock], numbers, name, rr, zone, max_span)
         meta["time_source"] = f"clock column {header[i_clock]!r}"
@@ -605,16 +664,7 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, 
             t = t / 1000.0
         meta["time_source"] = f"column {header[i_time]!r}"
     if t is not None:
-        steps = np.diff(t)
-        bad = steps <= 0
-        if bad.any():
-            i = int(np.argmax(bad)) + 1
-            kind = "repeats" if steps[i - 1] == 0 else "goes backwards"
-            hint = ("; if the clocks fell back for daylight saving, give the time zone "
-                    "with --tz" if i_clock is not None and kind == "goes backwards" else "")
-            raise RecordFormatError(name, f"beat time {kind} ({t[i - 1]:g} then {t[i]:g})"
-                                    + hint, line=numbers[i])
-        _check_span(t, numbers, name, max_span, "a beat time")
+        _check_beat_times(t, numbers, name, max_span, from_clock=i_clock is not None)
         if rr is not None and i_clock is None:
             _check_agreement(t, rr, numbers, name, header[i_time], header[i_rr])
     if rr is None:
@@ -630,13 +680,8 @@ def _read_table(body: _Lines, name: str, *, units, delimiter, decimal, columns, 
         _check_increasing(t, numbers, name)
     if t[0] < 0:
         raise RecordFormatError(name, f"beat time {t[0]:g} s is negative", line=numbers[0])
-    if i_lab is not None:
-        labels = np.char.strip(np.char.strip(np.array(cols[i_lab], dtype=str)), '"')
-        if rr.size < labels.size:
-            labels = labels[1:]
-        labels = _check_labels(labels, name, meta)
-    else:
-        labels = np.full(rr.size, "N")
+    labels = (_table_labels(cols[col.label], rr.size, name, meta) if col.label is not None
+              else np.full(rr.size, "N"))
     return Recording(t, rr, labels, start=start, metadata=meta,
                      clock=clock if isinstance(start, dt.datetime) else None)
 
