@@ -235,7 +235,7 @@ def periodogram_psd(
         "boxcar" (no taper) is the classical periodogram.
     nfft : int, optional
         FFT length (>= ``len(x)``; zero padding).  Default ``len(x)``.
-        ``scipy.fft.next_fast_len(len(x), real=True)`` avoids slow prime-factor lengths.
+        :func:`tfhrv.core.specfun.next_fast_len` avoids slow prime-factor lengths.
 
     Returns
     -------
@@ -745,10 +745,10 @@ def beta_from_nn(
     Sampling rate: at least 4 samples per cycle of the band's upper edge, and never below
     1 Hz, so that the HF band (<= 0.4 Hz, respiration) stays below the Nyquist frequency
     and is not aliased into the fit band by point-sampling the spline.  A 24-h record at
-    1 Hz has 86 400 samples; the periodogram is zero-padded to
-    ``scipy.fft.next_fast_len`` (< 1 % longer) so that its FFT takes about a millisecond
-    whatever the record length.  Lomb-Scargle costs O(beats x frequencies): about 5 s for
-    100 000 beats and the 160 frequencies of the default band.
+    1 Hz has 86 400 samples; the periodogram is zero-padded to the next 5-smooth length
+    (:func:`tfhrv.core.specfun.next_fast_len`, < 1 % longer) so that its FFT takes about a
+    millisecond whatever the record length.  Lomb-Scargle costs O(beats x frequencies):
+    about 5 s for 100 000 beats and the 160 frequencies of the default band.
 
     References
     ----------
