@@ -26,6 +26,7 @@ fractions. Appl Opt 1976;15:668-671. doi:10.1364/AO.15.000668
 
 from __future__ import annotations
 
+import functools
 import math
 from statistics import NormalDist
 
@@ -183,14 +184,49 @@ def _t_density(k: int, t: float) -> float:
     return math.exp(log_c - 0.5 * (k + 1) * math.log1p(t * t / k))
 
 
+@functools.lru_cache(maxsize=256)  # callers ask for a few (dof, 0.975) pairs over and over
+def _stdtrit(k: int, p: float) -> float:
+    sign, q = (1.0, 1.0 - p) if p > 0.5 else (-1.0, p)  # solve P(T > t) = q, t > 0
+    if k == 1:  # tan(pi (p - 1/2)) = cot(pi q) for the upper tail q = 1 - p
+        return sign / math.tan(math.pi * q)
+    if k == 2:  # (2p - 1) / sqrt(2 p (1 - p)) written with the tail q
+        return sign * (1.0 - 2.0 * q) / math.sqrt(2.0 * q * (1.0 - q))
+    z = -NormalDist().inv_cdf(q)
+    g1 = (z**3 + z) / 4.0
+    g2 = (5 * z**5 + 16 * z**3 + 3 * z) / 96.0
+    t = max(z + g1 / k + g2 / k**2, 1e-300)
+    lo, hi = 0.0, math.inf  # P(T > lo) > q > P(T > hi)
+    log_q = math.log(q)
+    last = math.inf
+    for _ in range(200):
+        tail = _t_tail(k, t)
+        if tail > q:
+            lo = t
+        else:
+            hi = t
+        step = (math.log(tail) - log_q) * tail / _t_density(k, t)  # d log(tail)/dt = -f/tail
+        new = t + step
+        if not lo < new < hi:  # Newton left the bracket: bisect (geometric while unbounded)
+            new = 2.0 * t if math.isinf(hi) else 0.5 * (lo + hi)
+        change = abs(new - t)
+        # converged: a step of a few units in the last place, or a step no smaller than the
+        # last one (the rounding noise of the tail probability is reached)
+        if change <= 4.0 * _EPS * abs(new) or (change >= last and change < 1e-14 * abs(new)):
+            return sign * new
+        last = change
+        t = new
+    raise ArithmeticError(f"stdtrit did not converge (dof={k!r}, p={p!r})")  # pragma: no cover
+
+
 def stdtrit(dof: int, p: float) -> float:
     """Student t quantile: the t with P(T_dof <= t) = p, integer ``dof`` >= 1, 0 < p < 1.
 
     Exact for dof 1 (``tan(pi (p - 1/2))``) and dof 2 (``(2p - 1) / sqrt(2 p (1 - p))``);
     otherwise Newton's method on the logarithm of the tail probability of :func:`stdtr`,
     started from the Cornish-Fisher expansion about the normal quantile (Abramowitz &
-    Stegun 1964, 26.7.5) and kept inside a shrinking bracket, until the step is below two
-    units in the last place.
+    Stegun 1964, 26.7.5) and kept inside a shrinking bracket, until the step is a few units
+    in the last place (or stops shrinking at the rounding noise of the tail).  Results are
+    cached: the pipeline asks for the same few (dof, 0.975) pairs thousands of times.
 
     Raises
     ------
@@ -208,31 +244,7 @@ def stdtrit(dof: int, p: float) -> float:
         raise ValueError(f"p must be in (0, 1), got {p!r}")
     if p == 0.5:
         return 0.0
-    sign, q = (1.0, 1.0 - p) if p > 0.5 else (-1.0, p)  # solve P(T > t) = q, t > 0
-    if k == 1:  # tan(pi (p - 1/2)) = cot(pi q) for the upper tail q = 1 - p
-        return sign / math.tan(math.pi * q)
-    if k == 2:  # (2p - 1) / sqrt(2 p (1 - p)) written with the tail q
-        return sign * (1.0 - 2.0 * q) / math.sqrt(2.0 * q * (1.0 - q))
-    z = -NormalDist().inv_cdf(q)
-    g1 = (z**3 + z) / 4.0
-    g2 = (5 * z**5 + 16 * z**3 + 3 * z) / 96.0
-    t = max(z + g1 / k + g2 / k**2, 1e-300)
-    lo, hi = 0.0, math.inf  # P(T > lo) > q > P(T > hi)
-    log_q = math.log(q)
-    for _ in range(200):
-        tail = _t_tail(k, t)
-        if tail > q:
-            lo = t
-        else:
-            hi = t
-        step = (math.log(tail) - log_q) * tail / _t_density(k, t)  # d log(tail)/dt = -f/tail
-        new = t + step
-        if not lo < new < hi:  # Newton left the bracket: bisect (geometric while unbounded)
-            new = 2.0 * t if math.isinf(hi) else 0.5 * (lo + hi)
-        if abs(new - t) <= 2.0 * _EPS * abs(new):
-            return sign * new
-        t = new
-    raise ArithmeticError(f"stdtrit did not converge (dof={dof!r}, p={p!r})")  # pragma: no cover
+    return _stdtrit(k, p)
 
 
 # --------------------------------------------------------------------------- psi functions
@@ -243,6 +255,16 @@ def _positive_array(x, name: str) -> np.ndarray:
     if not np.all(arr > 0):  # also refuses NaN
         raise ValueError(f"{name} must be > 0 everywhere, got {arr.ravel()[:5].tolist()!r}")
     return arr
+
+
+def _shift_up(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Arguments moved to ``z + m >= 10`` (m = 0, 1, ..., 10 steps of 1) and the terms
+    ``z, z + 1, ..., z + m - 1`` of the recurrence (``inf`` pads the unused ones)."""
+    steps = np.ceil(np.maximum(_ASYMPTOTIC_FROM - z, 0.0))
+    j = np.arange(int(_ASYMPTOTIC_FROM))
+    terms = z[..., None] + j
+    terms[j >= steps[..., None]] = np.inf
+    return z + steps, terms
 
 
 def digamma(x):
@@ -262,15 +284,8 @@ def digamma(x):
     >>> round(float(digamma(1.0)), 12)  # minus the Euler-Mascheroni constant
     -0.577215664902
     """
-    z = _positive_array(x, "x")
-    shifted = np.zeros_like(z)
-    z = z.copy()
-    while True:
-        low = z < _ASYMPTOTIC_FROM
-        if not low.any():
-            break
-        shifted[low] += 1.0 / z[low]
-        z[low] += 1.0
+    z, terms = _shift_up(_positive_array(x, "x"))
+    shifted = (1.0 / terms).sum(axis=-1)  # 1/x + 1/(x+1) + ... (0 where no shift)
     inv2 = 1.0 / (z * z)
     series = np.zeros_like(z)
     for n in range(len(_BERNOULLI), 0, -1):  # smallest terms first
@@ -297,15 +312,8 @@ def trigamma(x):
     >>> bool(abs(trigamma(1.0) - math.pi**2 / 6) < 1e-15)
     True
     """
-    z = _positive_array(x, "x")
-    shifted = np.zeros_like(z)
-    z = z.copy()
-    while True:
-        low = z < _ASYMPTOTIC_FROM
-        if not low.any():
-            break
-        shifted[low] += 1.0 / (z[low] * z[low])
-        z[low] += 1.0
+    z, terms = _shift_up(_positive_array(x, "x"))
+    shifted = (1.0 / (terms * terms)).sum(axis=-1)  # 1/x^2 + 1/(x+1)^2 + ...
     inv2 = 1.0 / (z * z)
     series = np.zeros_like(z)
     for n in range(len(_BERNOULLI), 0, -1):
