@@ -165,6 +165,29 @@ def test_plain_groups_write_the_same_file_without_xarray(tmp_path):
     assert out.stdout.strip() == "False"
 
 
+def test_scan_and_inspect_of_a_record_import_no_scipy(open_rr, tmp_path):
+    # Issue #16: importing any SciPy submodule costs 0.3-0.4 s in a fresh process, so the
+    # analysis path of `tfhrv inspect` and `tfhrv scan` (read, clean, analyse_record,
+    # build_groups, write_tree, the verdict and its printing) uses numpy, h5py,
+    # PyWavelets and tfhrv only.  One process (TFHRV_WORKERS=1) runs both verbs on a whole
+    # open 24-h record, so every lazily imported module would show in sys.modules.
+    record = open_rr / "nsr2db" / "nsr001.csv.gz"
+    code = textwrap.dedent(f"""
+        import contextlib, io, os, sys
+        os.environ["TFHRV_WORKERS"] = "1"
+        from tfhrv.cli import main
+        with contextlib.redirect_stdout(io.StringIO()):
+            assert main(["inspect", {str(record)!r}]) == 0
+            assert main(["scan", {str(record)!r}, "-o", {str(tmp_path / "s.nc")!r}]) == 0
+        print(sorted(m for m in sys.modules
+                     if m.split(".")[0] in ("scipy", "xarray", "pandas", "matplotlib")))
+        """)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "[]"
+    assert (tmp_path / "s.nc").stat().st_size > 0
+
+
 def test_open_tree_reads_what_xarray_reads(small_tree, tmp_path):
     # open_tree decodes the file itself through h5py; xarray's own reader (h5netcdf engine)
     # is the independent reference: the same tree, including a group added later (the

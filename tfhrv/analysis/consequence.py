@@ -32,10 +32,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import fft as sp_fft
-from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import next_fast_len, stdtrit
 from tfhrv.core.validation import as_1d_float, check_positive, check_range
 from tfhrv.estimators.spectral import periodogram_psd, spectral_exponent
 from tfhrv.synth.noise import fgn, powerlaw_noise
@@ -140,7 +139,7 @@ class BlockInterval:
 def _slope(y: np.ndarray, band: tuple[float, float], fs: float) -> float:
     """Raw log-binned periodogram slope (beta) of an even series; lack-of-fit skipped."""
     n = y.size
-    p = periodogram_psd(y, fs_hz=fs, nfft=sp_fft.next_fast_len(n, real=True))
+    p = periodogram_psd(y, fs_hz=fs, nfft=next_fast_len(n))
     # only ordinates up to the band's top enter the log bins: cut the rest (same fit)
     top = int(np.searchsorted(p.frequency_hz, band[1] * 1.01)) + 1
     return float(spectral_exponent(p.frequency_hz[:top], p.psd[:top], band=band,
@@ -265,7 +264,7 @@ def _null_series(n: int, beta: float, seed: int) -> np.ndarray:
     """Unit-variance power-law noise: fGn (Davies & Harte 1987) for beta < 1, else
     Timmer & König (1995) 1/f^beta noise, generated at a fast FFT length >= n and cut to
     n (a 24-h record at 1 Hz, 86 401 samples, is a slow FFT length)."""
-    m = sp_fft.next_fast_len(int(n), real=True)
+    m = next_fast_len(int(n))
     if beta < 1.0:
         x = fgn(m, (min(max(beta, -0.9), 0.999) + 1.0) / 2.0, rng=seed)[:n]
     else:
@@ -365,7 +364,7 @@ def level_change_effect(
 
 
 def _t95(dof: int) -> float:
-    return float(special.stdtrit(dof, 0.975)) if dof >= 1 else float("nan")
+    return stdtrit(dof, 0.975) if dof >= 1 else float("nan")
 
 
 def _blocks(n: int, block: int) -> list[tuple[int, int]]:

@@ -7,7 +7,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import special
 
 from tfhrv.analysis.consequence import (
     BLOCK_S,
@@ -20,6 +19,7 @@ from tfhrv.analysis.consequence import (
 from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
 from tfhrv.analysis.verdict import FitnessThresholds, Verdict, fitness_verdict
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import stdtrit
 from tfhrv.estimators.presets import estimate, estimate_dfa, long_band
 from tfhrv.signal.clean import CleanResult
 from tfhrv.signal.resample import resample_even
@@ -99,7 +99,7 @@ def _block_intervals(nn: np.ndarray, tt: np.ndarray, fits: dict, even, band, ord
         if np.all(np.isfinite(v)):
             k = v.size
             se = float(np.sqrt((k - 1) / k * np.sum((v - v.mean()) ** 2)))
-            qt = float(special.stdtrit(k - 1, 0.975))
+            qt = stdtrit(k - 1, 0.975)
             out["beta_wavelet"] = BlockInterval(wf.exponent, se, (wf.exponent - qt * se,
                                                 wf.exponent + qt * se),
                                                 tuple(v.tolist()), k, "jackknife")

@@ -12,9 +12,9 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import stdtrit
 from tfhrv.core.validation import as_1d_float, check_choice, check_positive, check_range, readonly
 from tfhrv.estimators.loglog import ScalingFit, loglog_fit
 
@@ -515,7 +515,7 @@ def _alpha_fit(fl: Fluctuation, fit_s: np.ndarray, asked: tuple[float, float]) -
     lx, ly = np.log10(fl.scales.astype(np.float64)), np.log10(fl.fluctuation)
     fit = loglog_fit(lx[used], ly[used])
     dof = fit.n_points - 2
-    t = float(special.stdtrit(dof, 0.975)) if dof > 0 else float("nan")
+    t = stdtrit(dof, 0.975) if dof > 0 else float("nan")
     fitted = fl.scales[used]
     return ScalingFit(
         exponent=fit.slope, kind="alpha", se=fit.slope_se,

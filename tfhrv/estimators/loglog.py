@@ -9,9 +9,9 @@ from types import MappingProxyType
 from typing import Any, Literal
 
 import numpy as np
-from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import stdtr
 from tfhrv.core.validation import readonly
 
 __all__ = ["Conversion", "LogLogFit", "ScalingFit", "convert_exponent", "loglog_fit"]
@@ -157,7 +157,7 @@ def loglog_fit(
             sigma2 = max(ss_res - curv * curv * sqq, 0.0) / dof
             se_c = float(np.sqrt(sigma2 / sqq))
             if se_c > 0:
-                curv_p = float(2 * special.stdtr(dof, -abs(curv / se_c)))  # two-sided t
+                curv_p = 2.0 * stdtr(dof, -abs(curv / se_c))  # two-sided t
             else:
                 curv_p = 0.0 if curv != 0 else 1.0
     return LogLogFit(float(slope), float(intercept), se, float(r2), curv, curv_p, int(n))

@@ -13,10 +13,9 @@ from types import MappingProxyType
 from typing import Any, Literal
 
 import numpy as np
-from scipy import fft as sp_fft
-from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import next_fast_len, stdtrit, trigamma
 from tfhrv.core.validation import (
     as_1d_float,
     as_bool_mask,
@@ -236,7 +235,7 @@ def periodogram_psd(
         "boxcar" (no taper) is the classical periodogram.
     nfft : int, optional
         FFT length (>= ``len(x)``; zero padding).  Default ``len(x)``.
-        ``scipy.fft.next_fast_len(len(x), real=True)`` avoids slow prime-factor lengths.
+        :func:`tfhrv.core.specfun.next_fast_len` avoids slow prime-factor lengths.
 
     Returns
     -------
@@ -284,20 +283,20 @@ def periodogram_psd(
     else:
         xd = xs
     if window == "boxcar":
-        spec = sp_fft.rfft(xd, m)
+        spec = np.fft.rfft(xd, m)
         wss = float(n)
     else:
         from scipy import signal
 
         w = signal.get_window(window, n, fftbins=True)
-        spec = sp_fft.rfft(w * xd, m)
+        spec = np.fft.rfft(w * xd, m)
         wss = float(w @ w)
     p = (spec.real**2 + spec.imag**2) / (fs * wss)
     if m % 2:
         p[1:] *= 2.0
     else:
         p[1:-1] *= 2.0
-    f = sp_fft.rfftfreq(m, 1.0 / fs)
+    f = np.fft.rfftfreq(m, 1.0 / fs)
     opts = {"window": window, "detrend": detrend, "nfft": m}
     return Spectrum(f, p, "periodogram", fs, n, n, opts)
 
@@ -641,7 +640,7 @@ def spectral_exponent(
     fit = loglog_fit(x[used], y[used])
     beta = -fit.slope
     lof_p, excess = _lack_of_fit(x[used], y[used], counts[nonempty][used], fit, ordinate_dof)
-    q = float(special.stdtrit(fit.n_points - 2, 0.975)) if fit.n_points > 2 else float("nan")
+    q = stdtrit(fit.n_points - 2, 0.975) if fit.n_points > 2 else float("nan")
     in_band = (k >= 0) & (k < nb)
     fr = (float(f[in_band].min()), float(f[in_band].max()))
     opts = {
@@ -671,7 +670,7 @@ def _lack_of_fit(x: np.ndarray, y: np.ndarray, counts: np.ndarray, fit,
         return float("nan"), float("nan")
     nu = check_positive(dof, "ordinate_dof")
     m = counts.astype(np.int64)
-    var_b = float(special.polygamma(1, nu / 2.0)) / np.log(10.0) ** 2 / m
+    var_b = trigamma(nu / 2.0) / np.log(10.0) ** 2 / m
     resid2 = (y - (fit.intercept + fit.slope * x)) ** 2
     stat = float(np.sum(resid2 / var_b))
     # null: the same bins filled with independent log10(chi^2_nu / nu) ordinates, the same
@@ -746,10 +745,10 @@ def beta_from_nn(
     Sampling rate: at least 4 samples per cycle of the band's upper edge, and never below
     1 Hz, so that the HF band (<= 0.4 Hz, respiration) stays below the Nyquist frequency
     and is not aliased into the fit band by point-sampling the spline.  A 24-h record at
-    1 Hz has 86 400 samples; the periodogram is zero-padded to
-    ``scipy.fft.next_fast_len`` (< 1 % longer) so that its FFT takes about a millisecond
-    whatever the record length.  Lomb-Scargle costs O(beats x frequencies): about 5 s for
-    100 000 beats and the 160 frequencies of the default band.
+    1 Hz has 86 400 samples; the periodogram is zero-padded to the next 5-smooth length
+    (:func:`tfhrv.core.specfun.next_fast_len`, < 1 % longer) so that its FFT takes about a
+    millisecond whatever the record length.  Lomb-Scargle costs O(beats x frequencies):
+    about 5 s for 100 000 beats and the 160 frequencies of the default band.
 
     References
     ----------
@@ -808,7 +807,7 @@ def beta_from_nn(
             spec = welch_psd(es.value_ms, fs_hz=fs, nperseg=seg)
         else:
             n = es.value_ms.size
-            spec = periodogram_psd(es.value_ms, fs_hz=fs, nfft=sp_fft.next_fast_len(n, real=True))
+            spec = periodogram_psd(es.value_ms, fs_hz=fs, nfft=next_fast_len(n))
         fit = spectral_exponent(
             spec.frequency_hz, spec.psd, band=(low, high), min_cycles=cycles,
             duration_s=spec.nperseg / fs, n_obs=es.value_ms.size,

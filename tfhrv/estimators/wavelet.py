@@ -12,9 +12,9 @@ from typing import Literal
 
 import numpy as np
 import pywt
-from scipy import special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import digamma, ndtri, trigamma
 from tfhrv.core.validation import (
     as_1d_float,
     check_choice,
@@ -102,7 +102,7 @@ def logscale_bias(n_j: np.ndarray | float) -> np.ndarray:
     -0.832746
     """
     half = np.asarray(n_j, dtype=np.float64) / 2.0
-    return special.digamma(half) / _LN2 - np.log2(half)
+    return digamma(half) / _LN2 - np.log2(half)
 
 
 def logscale_variance(n_j: np.ndarray | float) -> np.ndarray:
@@ -117,7 +117,7 @@ def logscale_variance(n_j: np.ndarray | float) -> np.ndarray:
     1.342346
     """
     half = np.asarray(n_j, dtype=np.float64) / 2.0
-    return special.polygamma(1, half) / _LN2**2
+    return trigamma(half) / _LN2**2
 
 
 def octave_to_frequency_hz(octave: int | np.ndarray, fs_hz: float) -> tuple:
@@ -392,7 +392,7 @@ def wavelet_exponent(
     weights = 1.0 / d.variance
     fit = loglog_fit(j[used].astype(np.float64), d.y[used], weights=weights[used],
                      known_variance=True)
-    z = float(special.ndtri(0.975))
+    z = ndtri(0.975)
     return ScalingFit(
         exponent=fit.slope, kind="beta", se=fit.slope_se,
         ci=(fit.slope - z * fit.slope_se, fit.slope + z * fit.slope_se),

@@ -18,9 +18,9 @@ from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
-from scipy import special
-from scipy.linalg import solve_triangular
 
+from tfhrv.core.linalg import solve_lower_triangular
+from tfhrv.core.specfun import ndtr
 from tfhrv.core.validation import as_1d_float, check_choice
 
 __all__ = ["ADFResult", "adf_test"]
@@ -87,14 +87,14 @@ def _mackinnon_p_constant(stat: float) -> float:
     """MacKinnon (1994) p-value of the ADF statistic, constant only, one variable.
 
     Equal to ``statsmodels.tsa.adfvalues.mackinnonp(stat, regression="c", N=1)``; the
-    normal CDF is scipy.special.ndtr.
+    normal CDF is :func:`tfhrv.core.specfun.ndtr`.
     """
     if stat > _TAU_MAX:
         return 1.0
     if stat < _TAU_MIN:
         return 0.0
     coef = np.asarray(_TAU_SMALLP if stat <= _TAU_STAR else _TAU_LARGEP, dtype=np.float64)
-    return float(special.ndtr(np.polynomial.polynomial.polyval(stat, coef)))
+    return ndtr(float(np.polynomial.polynomial.polyval(stat, coef)))
 
 
 def _projections(mom: np.ndarray, sums: np.ndarray, m: int) -> tuple[np.ndarray, float]:
@@ -114,7 +114,7 @@ def _projections(mom: np.ndarray, sums: np.ndarray, m: int) -> tuple[np.ndarray,
         raise np.linalg.LinAlgError("a regressor is constant")  # degenerate window
     gram = cen[:-1, :-1] / np.outer(norm, norm)
     chol = np.linalg.cholesky(gram)
-    qty = solve_triangular(chol, cen[:-1, -1] / norm, lower=True, check_finite=False)
+    qty = solve_lower_triangular(chol, cen[:-1, -1] / norm)
     return qty, float(cen[-1, -1])
 
 

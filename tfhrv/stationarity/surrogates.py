@@ -15,8 +15,8 @@ import functools
 from typing import Literal
 
 import numpy as np
-from scipy import fft as sp_fft
 
+from tfhrv.core.specfun import prev_fast_len
 from tfhrv.core.validation import as_1d_float, check_choice, check_int, readonly
 
 __all__ = ["DEFAULT_SEED", "surrogates"]
@@ -173,6 +173,6 @@ def _fast_length(n: int) -> int:
     six times slower; dropping at most 1 % of the beats at its end avoids that and does not
     change what the drift statistics measure.
     """
-    fast = int(sp_fft.prev_fast_len(int(n), real=True))
+    fast = prev_fast_len(int(n))
     return fast if fast >= 0.99 * n else int(n)
 
