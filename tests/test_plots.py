@@ -370,3 +370,23 @@ def test_multifractal_figure_shows_the_tree(tree, figs):
     assert_allclose(fa.get_ydata(), rec["mf_f"].values)
     sentence = plots.multifractal_sentence(tree)
     assert "research use only" in sentence.lower() and "c2" in sentence
+
+
+def test_time_smoothing_equals_scipy_box_filter():
+    # the running-sum moving average of the scale maps equals scipy.ndimage.convolve1d
+    # with a box of k ones (zero padding) for odd and even k, gaps left out
+    from scipy.ndimage import convolve1d
+
+    from tfhrv.viz.figkit import _smooth_time
+
+    rng = np.random.default_rng(4)
+    a = rng.normal(1.0, 0.2, (37, 5))
+    a[rng.random(a.shape) < 0.2] = np.nan
+    for k in (2, 3, 4, 6, 7):
+        ok = np.isfinite(a)
+        kern = np.ones(k)
+        num = convolve1d(np.where(ok, a, 0.0), kern, axis=0, mode="constant")
+        den = convolve1d(ok.astype(float), kern, axis=0, mode="constant")
+        ref = np.full(a.shape, np.nan)
+        np.divide(num, den, out=ref, where=ok & (den >= k / 2))
+        np.testing.assert_allclose(_smooth_time(a, k), ref, rtol=1e-13, equal_nan=True)

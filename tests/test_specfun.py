@@ -147,6 +147,45 @@ def test_t_quantile_exact_values():
         sf.stdtrit(3, 0.0)
 
 
+# --------------------------------------------------------------------------- F distribution
+
+def test_f_survival_for_even_numerator_dof_matches_scipy_and_exact_values():
+    # (a) scipy.special.fdtrc over the cosinor's dfn (2, 4) and more, dfd 1..20000
+    rng = np.random.default_rng(11)
+    xs = np.concatenate([rng.uniform(0.0, 6.0, 40), 10.0 ** rng.uniform(-6, 2.5, 40)])
+    for dfn in (2, 4, 6, 8):
+        for dfd in (1, 2, 3, 5, 10, 17, 50, 150, 1000):
+            ref = special.fdtrc(dfn, dfd, xs)
+            got = np.array([sf.fdtrc(dfn, dfd, x) for x in xs])
+            ok = ref > 1e-290
+            assert_allclose(got[ok], ref[ok], rtol=2e-13)
+    # (b) 60-digit decimal arithmetic of A & S 26.6.4 where SciPy 1.17 keeps only 13 digits
+    getcontext().prec = 60
+    for dfn, dfd, x in ((4, 20000, 2.722871213609003), (4, 5000, 1.6545089903175798),
+                        (2, 20000, 3.0)):
+        big_x, m, d = Decimal(x), Decimal(dfn), Decimal(dfd)
+        y = d / (d + m * big_x)
+        exact = (y.ln() * d / 2).exp() * (1 + (d / 2 * (1 - y) if dfn == 4 else 0))
+        assert abs(Decimal(sf.fdtrc(dfn, dfd, x)) - exact) / exact < Decimal(1e-14)
+    assert sf.fdtrc(2, 7, 0.0) == 1.0 and sf.fdtrc(4, 7, math.inf) == 0.0
+    with pytest.raises(ValueError, match="even"):
+        sf.fdtrc(3, 10, 1.0)
+
+
+def test_f_quantile_for_two_numerator_dof():
+    # (a) scipy.special.fdtri; (b) A & S table 26.9, F(0.95; 2, 10) = 4.10, F(0.99; 2, 20)
+    # = 5.85 (two decimals)
+    for dfd in (1, 2, 3, 5, 10, 17, 50, 150, 1000, 5000):
+        for p in (0.0, 0.01, 0.5, 0.9, 0.95, 0.99, 0.999999):
+            assert sf.fdtri(2, dfd, p) == pytest.approx(special.fdtri(2, dfd, p), rel=1e-14,
+                                                        abs=1e-300)
+    assert round(sf.fdtri(2, 10, 0.95), 2) == 4.10
+    assert round(sf.fdtri(2, 20, 0.99), 2) == 5.85
+    assert sf.fdtrc(2, 12, sf.fdtri(2, 12, 0.9)) == pytest.approx(0.1, rel=1e-14)
+    with pytest.raises(ValueError, match="dfn = 2"):
+        sf.fdtri(4, 10, 0.5)
+
+
 # --------------------------------------------------------------------------- FFT lengths
 
 def test_fast_lengths_equal_scipy_for_every_n_up_to_100000():

@@ -6,13 +6,14 @@ applies them to the per-window variables of a DataTree.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
-from scipy import optimize, special
 
 from tfhrv.core.errors import InsufficientDataError
+from tfhrv.core.specfun import fdtrc, fdtri, stdtrit
 from tfhrv.core.validation import (
     as_1d_float,
     as_bool_mask,
@@ -135,6 +136,26 @@ def _component_delta(b: float, g: float, cov2: np.ndarray) -> tuple[float, float
     return float(np.sqrt(grad_a @ cov2 @ grad_a)), float(np.sqrt(grad_p @ cov2 @ grad_p))
 
 
+def _golden_max(f, lo: float, hi: float, *, xatol: float = 1e-10) -> float:
+    """Largest value of a unimodal ``f`` on [lo, hi], by golden-section search until the
+    bracket is narrower than ``xatol`` (Kiefer 1953; Press et al. 2007, sec. 10.2).  At a
+    smooth maximum the value is then exact to rounding."""
+    inv = (math.sqrt(5.0) - 1.0) / 2.0
+    a, b = lo, hi
+    c, d = b - inv * (b - a), a + inv * (b - a)
+    fc, fd = f(c), f(d)
+    while b - a > xatol:
+        if fc >= fd:
+            b, d, fd = d, c, fc
+            c = b - inv * (b - a)
+            fc = f(c)
+        else:
+            a, c, fc = c, d, fd
+            d = a + inv * (b - a)
+            fd = f(d)
+    return max(fc, fd)
+
+
 def _component_ellipse(
     b: float, g: float, cov2: np.ndarray, crit: float
 ) -> tuple[tuple[float, float], tuple[float, float] | None]:
@@ -160,9 +181,8 @@ def _component_ellipse(
 
     def extreme(sign: float) -> float:
         a0 = grid[np.argmax(sign * dists)]
-        res = optimize.minimize_scalar(lambda a: -sign * float(dist(a)[0]), method="bounded",
-                                       bounds=(a0 - half, a0 + half), options={"xatol": 1e-10})
-        return sign * max(-float(res.fun), float(np.max(sign * dists)))
+        best = _golden_max(lambda a: sign * float(dist(a)[0]), a0 - half, a0 + half)
+        return sign * max(best, float(np.max(sign * dists)))
 
     if d <= r:
         return (0.0, extreme(1.0)), None
@@ -190,7 +210,7 @@ def _component(
     if not np.any(cov2):  # perfect fit
         return amp, (amp, amp), acro, (acro, acro), 0.0
     wald = float(bg @ np.linalg.solve(cov2, bg)) / 2.0
-    pval = float(special.fdtrc(2, df_resid, wald))  # F(2, df) survival function
+    pval = fdtrc(2, df_resid, wald)  # F(2, df) survival function
     significant = pval < alpha
     if method == "delta":
         hw_a, hw_p = (tq * se for se in _component_delta(b, g, cov2))
@@ -338,11 +358,11 @@ def cosinor(
     s2 = rss / df_resid
     if rss > 0:
         f_stat = (mss / df_model) / s2
-        f_p = float(special.fdtrc(df_model, df_resid, f_stat))
+        f_p = fdtrc(df_model, df_resid, f_stat)
     else:
         f_stat, f_p = np.inf, 0.0
-    tq = float(special.stdtrit(df_resid, 1.0 - alpha / 2.0))  # Student t quantile
-    crit = 2.0 * float(special.fdtri(2, df_resid, 1.0 - alpha))  # F quantile
+    tq = stdtrit(df_resid, 1.0 - alpha / 2.0)  # Student t quantile
+    crit = 2.0 * fdtri(2, df_resid, 1.0 - alpha)  # F quantile
 
     se_m = float(np.sqrt(cov[0, 0]))
     mesor = float(coef[0])
@@ -499,7 +519,7 @@ def _hedges_g(a: np.ndarray, b: np.ndarray) -> float:
     sp = np.sqrt(((na - 1) * a.var(ddof=1) + (nb - 1) * b.var(ddof=1)) / m)
     if sp == 0:
         return np.nan
-    j = np.exp(special.gammaln(m / 2.0) - special.gammaln((m - 1) / 2.0)) / np.sqrt(m / 2.0)
+    j = math.exp(math.lgamma(m / 2.0) - math.lgamma((m - 1) / 2.0)) / math.sqrt(m / 2.0)
     return float(j * (a.mean() - b.mean()) / sp)
 
 

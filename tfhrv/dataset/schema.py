@@ -14,7 +14,7 @@ and 95 % interval.  Units are CF strings (``"1"`` for dimensionless).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from types import MappingProxyType
 from typing import TYPE_CHECKING
 
@@ -309,8 +309,8 @@ def _circadian() -> list[Variable]:
     w = ("short_window",)
     for name, what in (("short_night", "night/rest"), ("short_day", "day")):
         out.append(Variable(name, w, None, f"short window lies in the {what} period used by "
-                            "the contrasts", flags=("no", "yes"), required=False))
-    return out
+                            "the contrasts", flags=("no", "yes")))
+    return [replace(v, required=False) for v in out]
 
 
 def _nn() -> list[Variable]:
@@ -336,7 +336,9 @@ GROUPS: MappingProxyType = MappingProxyType({
     "/long": _index(_tier() + _multifractal(("time",), "", required=True)),
     "/record": _index(_record() + _multifractal((), ", whole record", required=False)),
 })
-#: group path -> {variable name -> Variable}; groups a file may have (checked when present).
+#: group path -> {variable name -> Variable}; groups a file may have.  When present, the
+#: declared variables it holds are checked (dimensions, units, flags); none is required and
+#: other variables are allowed, so that files of earlier releases stay readable.
 OPTIONAL_GROUPS: MappingProxyType = MappingProxyType({"/circadian": _index(_circadian())})
 #: Root attributes every scan file carries (provenance).
 ROOT_ATTRS: tuple[str, ...] = ("Conventions", "tfhrv_version", "source_file", "source_sha256",
@@ -395,7 +397,7 @@ def problems(tree: xr.DataTree, /) -> list[str]:
                 if bad.any():
                     out.append(f"{group}/{name} holds codes outside its flags")
         undeclared = sorted(set(ds.variables) - set(decls))
-        if undeclared:
+        if undeclared and group in GROUPS:  # an optional group of an older file may differ
             out.append(f"{group} has undeclared variables: " + ", ".join(undeclared[:5]))
     return out
 
