@@ -1,8 +1,9 @@
 """The few special functions and FFT lengths the record pipeline needs, in numpy and math.
 
-Written out so that ``tfhrv scan`` and ``tfhrv inspect`` do not import SciPy: importing any
-``scipy`` submodule costs about 0.3-0.4 s in a fresh process (issue #16), for a normal
-quantile, Student t probabilities of integer degrees of freedom, the digamma and trigamma
+Written out so that ``tfhrv scan``, ``inspect``, ``circadian`` and ``report`` do not import
+SciPy: importing any ``scipy`` submodule costs about 0.3-0.4 s in a fresh process (issue
+#16), for a normal quantile, Student t probabilities of integer degrees of freedom, the F
+tail of the cosinor tests (even numerator degrees of freedom), the digamma and trigamma
 functions and the 5-smooth FFT lengths.  Each function agrees with its SciPy namesake to a
 few units in the last place (``tests/test_specfun.py`` checks against SciPy over wide
 argument grids and against exact values).
