@@ -149,7 +149,7 @@ def _thomas(a: np.ndarray, d: np.ndarray, c: np.ndarray, f: np.ndarray) -> np.nd
 
 
 def solve_lower_triangular(lower: np.ndarray, rhs: np.ndarray, /) -> np.ndarray:
-    """Solve L x = b for a small lower-triangular L by forward substitution.
+    """Solve L x = b for a small lower-triangular L.
 
     Parameters
     ----------
@@ -164,10 +164,11 @@ def solve_lower_triangular(lower: np.ndarray, rhs: np.ndarray, /) -> np.ndarray:
 
     Notes
     -----
-    Row-oriented forward substitution, x_i = (b_i - sum_{j<i} L_ij x_j) / L_ii (Golub &
-    Van Loan 2013, algorithm 3.1.1): backward stable, the same arithmetic as BLAS
-    ``trsv`` up to the order of the sums.  One vectorised dot product per row, meant for
-    the few columns of a regression (``scipy.linalg.solve_triangular(lower=True)``).
+    The system (upper triangle zeroed) goes to LAPACK's general solver ``gesv`` through
+    :func:`numpy.linalg.solve` (LU with partial pivoting; Golub & Van Loan 2013, sec.
+    3.4): for the few columns of a regression several times faster than forward
+    substitution (algorithm 3.1.1) written as a Python loop; both are backward stable and
+    agree with ``scipy.linalg.solve_triangular(lower=True)`` to rounding (tests).
 
     References
     ----------
@@ -185,7 +186,4 @@ def solve_lower_triangular(lower: np.ndarray, rhs: np.ndarray, /) -> np.ndarray:
     if L.shape != (k, k) or b.ndim != 1:
         raise ValueError(f"lower must be square with the length of rhs, got shapes "
                          f"{L.shape} and {b.shape}")
-    x = np.empty(k)
-    for i in range(k):
-        x[i] = (b[i] - L[i, :i] @ x[:i]) / L[i, i]
-    return x
+    return np.linalg.solve(np.tril(L), b)
