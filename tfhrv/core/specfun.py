@@ -323,6 +323,18 @@ def _positive_array(x, name: str) -> np.ndarray:
     return arr
 
 
+#: Coefficients of the asymptotic series in powers of 1/z^2: B_2n / (2n) for digamma
+#: (A & S 6.3.18), B_2n for trigamma (6.4.12), n = 1..7.
+_DIGAMMA_COEF = np.array([b / (2 * n) for n, b in enumerate(_BERNOULLI, start=1)])
+_TRIGAMMA_COEF = np.array(_BERNOULLI)
+
+
+def _powers(inv2: np.ndarray) -> np.ndarray:
+    """(1, w, w^2, ..., w^6) along a last axis, w = 1/z^2 (so that the series is one
+    product with its coefficients instead of a loop of array operations)."""
+    return inv2[..., None] ** np.arange(len(_BERNOULLI))
+
+
 def _shift_up(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Arguments moved to ``z + m >= 10`` (m = 0, 1, ..., 10 steps of 1) and the terms
     ``z, z + 1, ..., z + m - 1`` of the recurrence (``inf`` pads the unused ones)."""
@@ -353,9 +365,7 @@ def digamma(x):
     z, terms = _shift_up(_positive_array(x, "x"))
     shifted = (1.0 / terms).sum(axis=-1)  # 1/x + 1/(x+1) + ... (0 where no shift)
     inv2 = 1.0 / (z * z)
-    series = np.zeros_like(z)
-    for n in range(len(_BERNOULLI), 0, -1):  # smallest terms first
-        series = series * inv2 + _BERNOULLI[n - 1] / (2 * n)
+    series = _powers(inv2) @ _DIGAMMA_COEF  # sum_n B_2n / (2n) z^(-2n+2)
     out = np.log(z) - 0.5 / z - series * inv2 - shifted
     return out if out.ndim else float(out)
 
@@ -381,9 +391,7 @@ def trigamma(x):
     z, terms = _shift_up(_positive_array(x, "x"))
     shifted = (1.0 / (terms * terms)).sum(axis=-1)  # 1/x^2 + 1/(x+1)^2 + ...
     inv2 = 1.0 / (z * z)
-    series = np.zeros_like(z)
-    for n in range(len(_BERNOULLI), 0, -1):
-        series = series * inv2 + _BERNOULLI[n - 1]
+    series = _powers(inv2) @ _TRIGAMMA_COEF  # sum_n B_2n z^(-2n+2)
     out = (1.0 + (0.5 + series * inv2 * z) / z) / z + shifted
     return out if out.ndim else float(out)
 
