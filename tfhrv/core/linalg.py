@@ -1,5 +1,5 @@
 """Two small linear solvers in numpy: a diagonally dominant tridiagonal system (cyclic
-reduction) and a lower-triangular system (forward substitution).
+reduction) and a lower-triangular system (LAPACK ``gesv`` through numpy).
 
 Written out so that the record pipeline does not import ``scipy.linalg`` (about 0.3 s in a
 fresh process, issue #16) for ``solve_banded`` and ``solve_triangular``; both agree with
