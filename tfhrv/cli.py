@@ -454,7 +454,9 @@ def _cmd_figures(args: argparse.Namespace) -> int:
 
 
 def _cmd_report(args: argparse.Namespace) -> int:
-    from tfhrv.dataset.netcdf import numpy_only
+    from tfhrv.core.files import OutputSet
+    from tfhrv.dataset.netcdf import write_tree
+    from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
     if args.scan_output:
@@ -464,17 +466,8 @@ def _cmd_report(args: argparse.Namespace) -> int:
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
-    with numpy_only():  # no dask arrays here: spare xarray's import of dask (0.3-1 s)
-        tree, table = _pipeline(rec, _scan_options(args), progress, _circadian_options(args),
-                                _sleep_log(args, rec.record_id), args=args)
-        return _write_report(args, tree, table, progress)
-
-
-def _write_report(args: argparse.Namespace, tree, table, progress) -> int:
-    from tfhrv.core.files import OutputSet
-    from tfhrv.dataset.netcdf import write_tree
-    from tfhrv.viz.report import write_report
-
+    tree, table = _pipeline(rec, _scan_options(args), progress, _circadian_options(args),
+                            _sleep_log(args, rec.record_id), args=args)
     with OutputSet() as out:  # the report and the scan file, or neither
         path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
                             progress=progress, started=_STARTED, outputs=out,
