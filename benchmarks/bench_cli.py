@@ -120,6 +120,9 @@ def main() -> None:
     args = ap.parse_args()
     rec = str(args.record)
     tmp = Path(tempfile.mkdtemp(prefix="tfhrv-bench-"))
+    # as an installed package is (pip byte-compiles at install; `make bench` runs the same):
+    # otherwise a machine with PYTHONDONTWRITEBYTECODE set compiles the source in every run
+    subprocess.run([sys.executable, "-m", "compileall", "-q", str(ROOT / "tfhrv")], check=True)
     try:
         floor = statistics.median(
             float(run([sys.executable, "-c", FLOOR.format(path=rec)])[2]) for _ in range(3))
