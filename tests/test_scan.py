@@ -309,16 +309,20 @@ def test_calibration_model_is_recorded_and_used():
 
 def test_numpy_only_spares_dask_array_and_then_forgets():
     # In a fresh interpreter: xarray objects made inside the block do not import
-    # dask.array; after it, a dask array is again wrapped lazily (not computed to numpy),
-    # which is xarray's documented behaviour for dask arrays.
+    # dask.array, nor dask itself; after it, a dask array is again wrapped lazily (not
+    # computed to numpy), which is xarray's documented behaviour for dask arrays.
     code = textwrap.dedent("""
         import sys
         import numpy as np
         import xarray as xr
+        from xarray.namedarray import utils
         from tfhrv.dataset.netcdf import numpy_only
+        before = utils.is_dask_collection
         with numpy_only():
-            xr.Dataset({"a": ("x", np.zeros(3))})
+            xr.Dataset({"a": ("x", np.zeros(3))}, coords={"x": np.arange(3.0)})
         assert "dask.array" not in sys.modules
+        assert "dask" not in sys.modules  # not even the package (imported to answer)
+        assert utils.is_dask_collection is before
         import dask.array as da
         v = xr.Variable("x", da.zeros(3))
         assert isinstance(v.data, da.Array), type(v.data)
