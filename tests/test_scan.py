@@ -206,6 +206,27 @@ def test_open_tree_reads_what_xarray_reads(small_tree, tmp_path):
     assert set(groups_of(ours)) == {"/", "/nn", "/short", "/long", "/record", "/extra"}
 
 
+def test_open_tree_dimensions_from_ids_or_scales(small_tree, tmp_path):
+    # open_tree names dimensions from the netCDF-4 dimension ids when it can and from the
+    # HDF5 dimension scales otherwise; xarray's reader (h5netcdf engine) is the reference
+    # for a file of xarray's own writer and for one whose ids were removed.
+    import h5py
+
+    ref_path = tmp_path / "xr.nc"
+    small_tree.to_netcdf(ref_path, engine="h5netcdf")
+    stripped = write_tree(small_tree, tmp_path / "stripped.nc")
+    with h5py.File(stripped, "r+") as h5:
+        removed = []
+        h5.visititems(lambda name, obj: removed.append(name) if (
+            isinstance(obj, h5py.Dataset) and "_Netcdf4Coordinates" in obj.attrs) else None)
+        for name in removed:
+            del h5[name].attrs["_Netcdf4Coordinates"]
+    assert removed
+    for path in (ref_path, stripped):
+        with xr.open_datatree(path, engine="h5netcdf") as ref:
+            xr.testing.assert_identical(open_tree(path, check=False), ref.load())
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()

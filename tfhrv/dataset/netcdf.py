@@ -348,10 +348,21 @@ def _attr_decoded(value):
     return value
 
 
-def _decoded(d) -> tuple[np.ndarray, dict]:
-    """Values and attributes of one stored variable, CF-decoded as :func:`_cf_variable`
-    encodes them (and as xarray decodes them)."""
-    attrs = {k: _attr_decoded(v) for k, v in d.attrs.items() if k not in _INTERNAL_ATTRS}
+#: HDF5 dimension-scale bookkeeping (object references), never needed from the attributes.
+_REFERENCE_ATTRS = frozenset({"DIMENSION_LIST", "REFERENCE_LIST"})
+
+
+def _raw_attrs(obj) -> dict:
+    """Every attribute of an HDF5 object but the scale references, read once (as h5py
+    gives them)."""
+    return {k: obj.attrs[k] for k in obj.attrs if k not in _REFERENCE_ATTRS}
+
+
+def _decoded(d, raw: dict) -> tuple[np.ndarray, dict]:
+    """Values and attributes of one stored variable (``raw``: its attributes as
+    :func:`_raw_attrs` reads them), CF-decoded as :func:`_cf_variable` encodes them (and
+    as xarray decodes them)."""
+    attrs = {k: _attr_decoded(v) for k, v in raw.items() if k not in _INTERNAL_ATTRS}
     if d.dtype.kind in "OS":
         data = d.asstr()[()]
         return np.asarray(data, dtype=str) if np.ndim(data) else np.str_(data), attrs
@@ -373,14 +384,30 @@ def _decoded(d) -> tuple[np.ndarray, dict]:
         data = np.asarray(data).astype(bool)
         del attrs["dtype"]
     else:
-        fill = d.attrs.get("_FillValue")
+        fill = raw.get("_FillValue")
         if fill is not None and data.dtype.kind in "iu":  # masked integers become floats
             data = np.where(data == np.asarray(fill).ravel()[0], np.nan, data)
     return data, attrs
 
 
+def _dimension_names(d, raw: dict, dimids: dict[int, str]) -> tuple[str, ...]:
+    """The dimension names of a variable: from its netCDF-4 dimension ids
+    (``_Netcdf4Coordinates``) when they name dimensions seen in this group or above it,
+    else from the HDF5 dimension scales attached to it (slower: h5py resolves each
+    scale's path)."""
+    ids = raw.get("_Netcdf4Coordinates")
+    if ids is not None and np.size(ids) == d.ndim and all(int(i) in dimids for i in ids):
+        return tuple(dimids[int(i)] for i in np.ravel(ids))
+    return tuple(d.dims[i][0].name.rsplit("/", 1)[-1] if len(d.dims[i])
+                 else f"phony_dim_{i}" for i in range(d.ndim))
+
+
 def _read_groups(path) -> dict[str, Group]:
-    """Every group of a netCDF-4 file as plain :class:`Group` objects (numpy only)."""
+    """Every group of a netCDF-4 file as plain :class:`Group` objects (numpy only).
+
+    Each attribute is read once.  Dimension ids (``_Netcdf4Dimid``) are visible in the
+    group that defines them and in its subgroups, as in netCDF-4.
+    """
     import h5py
 
     out: dict[str, Group] = {}
@@ -388,28 +415,34 @@ def _read_groups(path) -> dict[str, Group]:
         nodes = [h5]
         h5.visit(lambda name: nodes.append(h5[name]) if isinstance(h5[name], h5py.Group)
                  else None)
-        for node in nodes:
+        visible: dict[str, dict[int, str]] = {}
+        for node in nodes:  # parents come before their subgroups
+            node_attrs = _raw_attrs(node)
+            parent = node.name.rsplit("/", 1)[0] or "/"
+            dimids = dict(visible.get(parent, {})) if node.name != "/" else {}
+            datasets = [(name, d, _raw_attrs(d)) for name, d in node.items()
+                        if isinstance(d, h5py.Dataset)]
+            for name, _, raw in datasets:
+                if raw.get("CLASS") == b"DIMENSION_SCALE" and "_Netcdf4Dimid" in raw:
+                    dimids[int(np.ravel(raw["_Netcdf4Dimid"])[0])] = name
+            visible[node.name] = dimids
             variables: dict = {}
             scales = set()
-            labels = set(str(_attr_decoded(node.attrs.get("coordinates", ""))).split())
-            for name, d in node.items():
-                if not isinstance(d, h5py.Dataset):
-                    continue
-                if d.attrs.get("CLASS") == b"DIMENSION_SCALE":
-                    if str(_attr_decoded(d.attrs.get("NAME", b""))).startswith(
-                            _PHONY[:40]):
+            labels = set(str(_attr_decoded(node_attrs.get("coordinates", ""))).split())
+            for name, d, raw in datasets:
+                if raw.get("CLASS") == b"DIMENSION_SCALE":
+                    if str(_attr_decoded(raw.get("NAME", b""))).startswith(_PHONY[:40]):
                         continue  # a dimension without a variable
                     scales.add(name)
                     dims = (name,)
                 else:
-                    dims = tuple(d.dims[i][0].name.rsplit("/", 1)[-1] if len(d.dims[i])
-                                 else f"phony_dim_{i}" for i in range(d.ndim))
-                    labels.update(str(_attr_decoded(d.attrs.get("coordinates", ""))).split())
-                data, attrs = _decoded(d)
+                    dims = _dimension_names(d, raw, dimids)
+                    labels.update(str(_attr_decoded(raw.get("coordinates", ""))).split())
+                data, attrs = _decoded(d, raw)
                 variables[name] = (dims, data, attrs)
             coords = {n: v for n, v in variables.items() if n in scales or n in labels}
             data_vars = {n: v for n, v in variables.items() if n not in coords}
-            attrs = {k: _attr_decoded(v) for k, v in node.attrs.items()
+            attrs = {k: _attr_decoded(v) for k, v in node_attrs.items()
                      if k not in _INTERNAL_ATTRS}
             out["/" if node.name == "/" else node.name] = Group(data_vars, coords, attrs)
     return out
