@@ -118,3 +118,40 @@ def test_circadian_uses_primary_windows_only():
                                   [np.nan, np.nan, 0.3, 0.4])
     old = xr.DataTree.from_dict({"/long": ds.drop_vars(["c2", "mf_estimator"])})
     assert np.isnan(_series(old, "long", "c2")).all()  # files from before issue #20
+
+
+def test_switched_off_leaves_the_rest_unchanged():
+    # ScanOptions(multifractal=False) (--no-multifractal) must drop only the multifractal
+    # estimates: every other per-window value and the verdict are identical to the default
+    # run, and each 4-h window and the report sentence say why the estimates are missing.
+    import datetime as dt
+    import json
+
+    from tfhrv.analysis.multifractal_fits import MULTIFRACTAL_OFF
+    from tfhrv.analysis.pipeline import ScanOptions, analyse_record
+    from tfhrv.dataset.build import build_tree
+    from tfhrv.signal.clean import clean
+    from tfhrv.signal.recording import Recording
+    from tfhrv.viz.multifractal import multifractal_sentence
+
+    nn = 800.0 + 50.0 * fgn(30_000, 0.8, rng=11)  # about 6.7 h: three 4-h windows
+    rec = Recording.from_intervals(nn, start=dt.datetime(2026, 3, 2, 8, 0), record_id="mf-off")
+    cleaned = clean(rec)
+    on = analyse_record(cleaned, options=ScanOptions(), workers=1)
+    off = analyse_record(cleaned, options=ScanOptions(multifractal=False), workers=1)
+    assert on.multifractal is not None and off.multifractal is None
+    mf = set(empty_multifractal(1))
+    for tier in ("short", "long"):
+        a, b = getattr(on, tier).values, getattr(off, tier).values
+        for name in a:
+            if name in mf:
+                continue
+            np.testing.assert_array_equal(a[name], b[name], err_msg=name)
+    assert np.isfinite(on.long.values["mf_h"]).any()
+    assert not np.isfinite(off.long.values["mf_h"]).any()
+    assert set(off.long.values["mf_reason"]) == {MULTIFRACTAL_OFF}
+    assert on.assessment.verdict == off.assessment.verdict
+    tree = build_tree(off)
+    assert json.loads(tree.attrs["parameters"])["scan"]["multifractal"] is False
+    assert "switched off" in multifractal_sentence(tree)
+    assert "c2 =" in multifractal_sentence(build_tree(on))

@@ -73,6 +73,9 @@ def _add_scan_options(p: argparse.ArgumentParser) -> None:
                    help="model of the calibrated intervals: 'powerlaw' (fGn below alpha 1, "
                    "1/f^beta noise above; default) or 'fgn-fbm' (fGn below, fBm above, the "
                    "class read at the longest scales)")
+    g.add_argument("--no-multifractal", action="store_true",
+                   help="leave out the multifractal estimates (MF-DFA h(q), c2, width) of "
+                   "the 4-h windows and the whole record: about a tenth less work")
     g = p.add_argument_group("FFT-slope fitness thresholds (unfit beyond these)")
     g.add_argument("--max-gap", type=float, default=30.0,
                    help="longest unreadable stretch, min (30; common practice)")
@@ -255,6 +258,7 @@ def _scan_options(args: argparse.Namespace):
         long=replace(LONG, window_s=args.long_window * 3600.0, hop_s=args.long_hop * 3600.0),
         dfa_order=args.dfa_order, vanishing_moments=args.vanishing_moments,
         calibration_model=args.calibration, thresholds=thresholds,
+        multifractal=not args.no_multifractal,
     )
 
 
@@ -519,6 +523,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
 
 
 def _cmd_cohort(args: argparse.Namespace) -> int:
+    from tfhrv.analysis.pipeline import ScanOptions
     from tfhrv.cohort.run import (
         CohortOptions,
         format_summary,
@@ -532,6 +537,7 @@ def _cmd_cohort(args: argparse.Namespace) -> int:
         entries = with_sleep_log(entries, args.sleep_log)
     res = run_cohort(entries, args.output, workers=args.workers, scheduler=args.scheduler,
                      options=CohortOptions(report=args.report,
+                                           scan=ScanOptions(multifractal=not args.no_multifractal),
                                            circadian=_circadian_options(args)),
                      progress=_progress(args))
     print(format_summary(res))
@@ -688,6 +694,9 @@ def build_parser() -> argparse.ArgumentParser:
                    "0: in this process, without dask)")
     p.add_argument("--scheduler", help="address of a running dask scheduler (tcp://host:port)")
     p.add_argument("--report", action="store_true", help="also write reports/<record>.html")
+    p.add_argument("--no-multifractal", action="store_true",
+                   help="leave out the multifractal estimates (about a tenth less work per "
+                   "record; the study columns of c2 and the width are then empty)")
     _add_circadian_options(p)
     p.set_defaults(func=_cmd_cohort)
 

@@ -60,6 +60,7 @@ __all__ = [
     "MF_DECISION",
     "MF_ESTIMATORS",
     "MIN_BEATS",
+    "MULTIFRACTAL_OFF",
     "SHORT_NOTE",
     "WIDTH_PRIMARY",
     "empty_multifractal",
@@ -97,6 +98,11 @@ MF_DECISION: dict[str, tuple[str, str]] = {
 _SCALARS = ("c1", "c2", "c2_slope", "c2_pvalue", "mf_width", "mf_width_slope")
 _PAIRS = ("c1_ci", "c2_ci", "mf_width_ci")
 _CURVES = ("mf_h", "mf_alpha", "mf_f")
+
+
+#: The reason stored for every 4-h window when the multifractal analysis is switched off
+#: (``ScanOptions.multifractal``, ``--no-multifractal``).
+MULTIFRACTAL_OFF = "not computed: multifractal analysis switched off (--no-multifractal)"
 
 
 def empty_multifractal(n: int, /) -> dict[str, np.ndarray]:

@@ -27,6 +27,7 @@ import numpy as np
 
 from tfhrv.analysis.fits import RECORD_PRESETS, calibrated_fits
 from tfhrv.analysis.multifractal_fits import (
+    MULTIFRACTAL_OFF,
     empty_multifractal,
     record_multifractal,
     window_multifractal,
@@ -79,7 +80,10 @@ class ScanOptions:
     the surrogates (window w uses seed + w); ``*_psd_fs_hz`` the resampling rates of the
     stored spectra (4 Hz for 5-min windows, common practice; 1 Hz for long windows);
     ``calibration_model`` the model of the calibrated intervals ("powerlaw" or "fgn-fbm",
-    :mod:`tfhrv.calibration.calibrate`); ``thresholds`` those of the FFT-slope verdict.
+    :mod:`tfhrv.calibration.calibrate`); ``thresholds`` those of the FFT-slope verdict;
+    ``multifractal`` False leaves out the multifractal estimates of the 4-h windows and the
+    whole record (:mod:`tfhrv.analysis.multifractal_fits`; about a tenth of the work of a
+    24-h scan), their variables then missing with the reason.
     """
 
     short: TierSpec = SHORT
@@ -93,6 +97,7 @@ class ScanOptions:
     long_psd_fs_hz: float = 1.0
     calibration_model: str = "powerlaw"
     thresholds: FitnessThresholds = field(default_factory=FitnessThresholds)
+    multifractal: bool = True
 
     def as_dict(self) -> dict:
         """Plain dictionary (JSON-friendly)."""
@@ -303,7 +308,10 @@ def _window_values(v: dict, w: int, win: Window, st: StationarityResult | None,
     m = np.minimum(energy.size, octaves.size)
     v["wavelet_energy"][w, :m] = energy[:m]
     if tier.scale == "long":
-        window_multifractal(v, w, nn, st.category, vanishing_moments=opt.vanishing_moments)
+        if opt.multifractal:
+            window_multifractal(v, w, nn, st.category, vanishing_moments=opt.vanishing_moments)
+        else:
+            v["mf_reason"][w] = MULTIFRACTAL_OFF
 
 
 def _band_ok(tier: TierSpec) -> np.ndarray:
@@ -396,7 +404,8 @@ def _record_parts(cleaned: CleanResult, opt: ScanOptions, full: bool) -> tuple:
         nn = cleaned.nn_ms
         fl = _or_none(dfa_fluctuation, nn, order=opt.dfa_order)
         diag = _or_none(logscale_diagram, nn, vanishing_moments=opt.vanishing_moments)
-        mf = record_multifractal(nn, vanishing_moments=opt.vanishing_moments)
+        if opt.multifractal:
+            mf = record_multifractal(nn, vanishing_moments=opt.vanishing_moments)
     return measures, fl, diag, mf
 
 

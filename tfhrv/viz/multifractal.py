@@ -32,6 +32,18 @@ _CAUTION = ("Research use only: c2 and the width describe the variability of thi
             "groups (Ivanov et al. 1999) are context, not a verdict on a person.")
 
 
+def _switched_off(tree: xr.DataTree) -> bool:
+    """Whether the scan's stored parameters say the multifractal analysis was off."""
+    import json
+
+    try:
+        params = json.loads(str(tree.attrs.get("parameters", "{}")))
+    except ValueError:
+        return False
+    scan = params.get("scan", {}) if isinstance(params, dict) else {}
+    return isinstance(scan, dict) and scan.get("multifractal") is False
+
+
 def multifractal_sentence(tree: xr.DataTree, /) -> str:
     """One sentence on the whole record's multifractality, with the caution.
 
@@ -44,6 +56,9 @@ def multifractal_sentence(tree: xr.DataTree, /) -> str:
     rec = _ds(tree, "record")
     c2 = _scalar(rec, "c2")
     if not np.isfinite(_scalar(rec, "c2_slope")):
+        if _switched_off(tree):
+            return ("No multifractal estimate: the analysis was switched off for this scan "
+                    "(--no-multifractal). " + _CAUTION)
         return "No multifractal estimate for this record (too few beats). " + _CAUTION
     ci = _values(rec, "c2_ci")
     p = _scalar(rec, "c2_pvalue")
@@ -95,7 +110,8 @@ def multifractal_spectrum(tree: xr.DataTree, /):
         _style(ax)
     h = _values(rec, "mf_h")
     if h is None or not np.isfinite(h).any():
-        _message(ax_h, "no whole-record multifractal estimate in this file")
+        _message(ax_h, "multifractal analysis switched off for this scan (--no-multifractal)"
+                 if _switched_off(tree) else "no whole-record multifractal estimate in this file")
         _message(ax_f, "")
         return fig
     q = rec["q"].values.astype(float)
