@@ -337,6 +337,17 @@ def test_save_all_writes_every_figure_atomically(tree, figs, tmp_path):
         plots.save_all(tree, tmp_path, formats=("jpg",))
 
 
+def test_save_all_same_bytes_on_two_processes_and_every_run(tree, tmp_path):
+    # Forked workers draw the figures (tfhrv figures uses the cores); the files must be the
+    # bytes one process draws, and an SVG must not change from run to run (fixed id salt,
+    # no date), so that outputs can be compared byte for byte.
+    one = plots.save_all(tree, tmp_path / "one", formats=("png", "svg"), dpi=30)
+    two = plots.save_all(tree, tmp_path / "two", formats=("png", "svg"), dpi=30, workers=2)
+    assert [p.name for p in one] == [p.name for p in two]
+    for a, b in zip(one, two, strict=True):  # SVGs of two processes: no random ids
+        assert a.read_bytes() == b.read_bytes(), a.name
+
+
 def test_smoothing_is_a_moving_average_that_keeps_gaps():
     from tfhrv.viz.figkit import _smooth_time
 

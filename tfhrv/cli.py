@@ -450,7 +450,7 @@ def _cmd_figures(args: argparse.Namespace) -> int:
     tree = open_tree(path)
     with OutputSet() as staged:
         written = save_all(tree, out, formats=tuple(args.formats), dpi=args.dpi,
-                           progress=progress, outputs=staged,
+                           progress=progress, outputs=staged, workers=_workers(),
                            **({"alpha_range": tuple(args.alpha_range)} if args.alpha_range
                               else {}))
     print(f"wrote {len(written)} files to {out}")

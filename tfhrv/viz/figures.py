@@ -49,6 +49,7 @@ from tfhrv.viz.figkit import (
     _long_alpha,
     _message,
     _new_figure,
+    _rc,
     _record_end_h,
     _rest,
     _runs,
@@ -59,6 +60,7 @@ from tfhrv.viz.figkit import (
     _tier_hours,
     _time_axis,
     _values,
+    warm_up,
 )
 from tfhrv.viz.multifractal import multifractal_sentence, multifractal_spectrum
 
@@ -745,6 +747,10 @@ FIGURES = {
 }
 
 
+#: Metadata left out of each format, so that the same figure gives the same bytes.
+_NO_DATE = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
+
+
 def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.0,
                 outputs=None) -> Path:
     """Write one figure atomically (temporary file in the same folder, then ``os.replace``),
@@ -753,18 +759,39 @@ def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.
 
     check_choice(fmt, "fmt", ("png", "svg", "pdf"))
     dpi = check_positive(dpi, "dpi")
-    meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}
 
     def write(tmp):
-        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=meta[fmt])
+        with _rc():  # our style, including the fixed SVG id salt
+            fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_NO_DATE[fmt])
 
     return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
+
+
+#: What forked figure workers read (set just before forking; never pickled).
+_FORK_STATE: dict = {}
+
+
+def _figure_bytes(name: str) -> list[bytes]:
+    """One figure of :data:`FIGURES` rendered in every format of the fork state."""
+    import io
+
+    st = _FORK_STATE
+    func = FIGURES[name]
+    fig = (func(st["tree"], alpha_range=st["alpha_range"]) if name.startswith("scale_map")
+           else func(st["tree"]))
+    out = []
+    for fmt in st["formats"]:
+        buf = io.BytesIO()
+        with _rc():  # our style, including the fixed SVG id salt (same bytes every run)
+            fig.savefig(buf, format=fmt, dpi=st["dpi"], metadata=_NO_DATE[fmt])
+        out.append(buf.getvalue())
+    return out
 
 
 def save_all(tree: xr.DataTree, directory: str | Path, /, *,
              formats: tuple[str, ...] = ("png", "svg"), dpi: float = 110.0,
              prefix: str = "", alpha_range: tuple[float, float] | None = None,
-             progress=None, outputs=None) -> list[Path]:
+             progress=None, outputs=None, workers: int = 1) -> list[Path]:
     """Render every figure of :data:`FIGURES` and write it in each format.
 
     Parameters
@@ -785,25 +812,50 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
     outputs : tfhrv.core.files.OutputSet, optional
         Stage the files there (renamed with the command's other outputs) instead of
         writing each at once.
+    workers : int, default 1
+        Processes drawing the figures (forked, POSIX only; matplotlib's rendering is
+        deterministic, so the files are the same bytes as drawn in one process).  The
+        files are written by this process.
 
     Returns
     -------
     list of Path
         The files written, ``<prefix><figure>.<format>``, in :data:`FIGURES` order.
     """
+    import multiprocessing as mp
+
+    from tfhrv.core.files import atomic_write
+    from tfhrv.core.progress import SILENT
+    from tfhrv.core.validation import check_int
+
     if isinstance(formats, str):
         formats = (formats,)
     for fmt in formats:
         check_choice(fmt, "formats", ("png", "svg", "pdf"))
-    from tfhrv.core.progress import SILENT
-
+    dpi = check_positive(dpi, "dpi")
+    workers = check_int(workers, "workers", minimum=1)
     out = Path(directory)
+    names = list(FIGURES)
+    _FORK_STATE.update(tree=tree, formats=tuple(formats), dpi=dpi, alpha_range=alpha_range)
+    track = (progress or SILENT).track
+    try:
+        if workers > 1 and "fork" in mp.get_all_start_methods():
+            warm_up()  # matplotlib loaded once here, inherited by the workers
+            with mp.get_context("fork").Pool(min(workers, len(names))) as pool:
+                rendered = list(track(pool.imap(_figure_bytes, names), total=len(names),
+                                      label="figures"))
+        else:
+            rendered = [_figure_bytes(n) for n in track(names, total=len(names),
+                                                        label="figures")]
+    finally:
+        _FORK_STATE.clear()
     written = []
-    for name, func in (progress or SILENT).track(FIGURES.items(), total=len(FIGURES),
-                                                 label="figures"):
-        fig = func(tree, alpha_range=alpha_range) if name.startswith("scale_map") \
-            else func(tree)
-        for fmt in formats:
-            written.append(save_figure(fig, out / f"{prefix}{name}.{fmt}", fmt=fmt, dpi=dpi,
-                                       outputs=outputs))
+    for name, blobs in zip(names, rendered, strict=True):
+        for fmt, data in zip(formats, blobs, strict=True):
+            def write(tmp, data=data):
+                Path(tmp).write_bytes(data)
+
+            path = out / f"{prefix}{name}.{fmt}"
+            written.append(outputs.add(path, write) if outputs is not None
+                           else atomic_write(path, write))
     return written
