@@ -141,6 +141,10 @@ def main() -> None:
                                    "tfhrv.viz.report, tfhrv.viz.figures"]),
             ("tfhrv inspect REC", [*TFHRV, "inspect", rec]),
             ("tfhrv scan REC -o OUT.nc", [*TFHRV, "scan", rec, "-o", str(tmp / "o.nc")]),
+            ("  the same, --no-multifractal", [*TFHRV, "scan", rec, "-o", str(tmp / "m.nc"),
+                                               "--no-multifractal"]),
+            ("tfhrv figures OUT.nc -d DIR", [*TFHRV, "figures", str(tmp / "o.nc"), "-d",
+                                             str(tmp / "figs")]),
             ("tfhrv report REC -o R.html", [*TFHRV, "report", rec, "-o",
                                             str(tmp / "r.html")]),
         ]
