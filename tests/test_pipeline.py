@@ -87,8 +87,12 @@ def test_workers_do_not_change_results(monkeypatch, rng, detail):
     rr = 800 + 40 * fgn(6000, 0.8, rng=rng)
     options = ScanOptions(long=replace(pipeline.LONG, window_s=1800.0, hop_s=900.0))
     cleaned = clean(Recording.from_intervals(rr))
-    a = analyse_record(cleaned, options=options, detail=detail)
-    b = analyse_record(cleaned, options=options, detail=detail, workers=2)
+    calls = []  # the caller's own work runs once in either path (while_waiting)
+    a = analyse_record(cleaned, options=options, detail=detail,
+                       while_waiting=lambda: calls.append("serial"))
+    b = analyse_record(cleaned, options=options, detail=detail, workers=2,
+                       while_waiting=lambda: calls.append("forked"))
+    assert calls == ["serial", "forked"]
     assert repr(a.assessment) == repr(b.assessment)
     for tier in ("short", "long"):
         ta, tb = getattr(a, tier), getattr(b, tier)

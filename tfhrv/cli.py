@@ -108,14 +108,14 @@ def _add_circadian_options(p: argparse.ArgumentParser) -> None:
 
 
 def _circadian_options(args: argparse.Namespace):
-    from tfhrv.circadian.days import CircadianOptions
+    from tfhrv.circadian.options import CircadianOptions
 
     return CircadianOptions(night_hours=tuple(args.night), day_hours=tuple(args.day),
                             period=args.period, rest_hours=args.rest_hours)
 
 
 def _sleep_log(args: argparse.Namespace, record_id: str):
-    from tfhrv.circadian.days import read_sleep_log
+    from tfhrv.circadian.options import read_sleep_log
 
     return read_sleep_log(args.sleep_log, record_id) if args.sleep_log else None
 
@@ -286,16 +286,35 @@ def _check_output(path: str, suffixes: tuple[str, ...]) -> None:
         raise ValueError(f"{path}: the output folder does not exist")
 
 
-def _analysed(rec, options, progress, *, args: argparse.Namespace, what: str):
+def _analysed(rec, options, progress, *, args: argparse.Namespace, what: str,
+              while_waiting=None):
     """clean -> full record analysis, with stages; a record too short for any window says
-    so, naming it."""
+    so, naming it.  ``while_waiting`` (the command's next imports) runs while the worker
+    processes compute the windows."""
     from tfhrv.analysis.pipeline import analyse_record
 
     progress.stage("clean")
     cleaned = _clean(rec, args)
     _check_long_enough(cleaned, options, what=what)
     return analyse_record(cleaned, options=options, detail="full", progress=progress,
-                          workers=_workers())
+                          workers=_workers(), while_waiting=while_waiting)
+
+
+def _load_writer() -> None:
+    """What writing the scan file needs (h5py), loaded while the windows are computed."""
+    import h5py  # noqa: F401
+
+
+def _load_report() -> None:
+    """What the day/night analysis and the report need (xarray, pandas, matplotlib with its
+    fonts and parser), loaded while the windows are computed instead of after them."""
+    import tfhrv.circadian.days  # noqa: F401
+    import tfhrv.dataset.groups  # noqa: F401
+    from tfhrv.viz.figkit import warm_up
+    from tfhrv.viz.report import write_report  # noqa: F401
+
+    _load_writer()
+    warm_up()
 
 
 def _check_long_enough(cleaned, options, *, what: str) -> None:
@@ -326,7 +345,8 @@ def _cmd_scan(args: argparse.Namespace) -> int:
     progress = _progress(args)
     progress.stage(f"read {args.recording}")
     rec = _read(args)
-    groups = build_groups(_analysed(rec, options, progress, args=args, what="a scan"))
+    groups = build_groups(_analysed(rec, options, progress, args=args, what="a scan",
+                                    while_waiting=_load_writer))
     progress.stage(f"write {args.output}")
     write_tree(groups, args.output)
     n_short, n_long = (groups[g].sizes()["time"] for g in ("/short", "/long"))
@@ -386,14 +406,19 @@ def _cmd_rhythm(args: argparse.Namespace) -> int:
 
 def _pipeline(rec, options, progress, circadian_options=None, sleep_log=None, *,
               args: argparse.Namespace):
-    """clean -> scan -> circadian: the tree with its /circadian group, and the table."""
+    """clean -> scan -> circadian: the tree with its /circadian group, and the table.
+    xarray, pandas and matplotlib are imported while the windows are computed
+    (:func:`_load_report`)."""
+    from tfhrv.dataset.build import build_tree
+
+    analysis = _analysed(rec, options, progress, args=args, what="a report",
+                         while_waiting=_load_report)
     import xarray as xr
 
     from tfhrv.circadian.days import CircadianOptions, circadian_dataset, circadian_table
     from tfhrv.core.errors import InsufficientDataError
-    from tfhrv.dataset.build import build_tree
 
-    tree = build_tree(_analysed(rec, options, progress, args=args, what="a report"))
+    tree = build_tree(analysis)
     copt = circadian_options or CircadianOptions()
     progress.stage("day/night contrasts (block bootstrap) and cosinor")
     try:
@@ -460,7 +485,6 @@ def _cmd_figures(args: argparse.Namespace) -> int:
 def _cmd_report(args: argparse.Namespace) -> int:
     from tfhrv.core.files import OutputSet
     from tfhrv.dataset.netcdf import write_tree
-    from tfhrv.viz.report import write_report
 
     _check_output(args.output, (".html", ".htm"))
     if args.scan_output:
@@ -472,6 +496,8 @@ def _cmd_report(args: argparse.Namespace) -> int:
     rec = _read(args)
     tree, table = _pipeline(rec, _scan_options(args), progress, _circadian_options(args),
                             _sleep_log(args, rec.record_id), args=args)
+    from tfhrv.viz.report import write_report  # loaded during the analysis (_load_report)
+
     with OutputSet() as out:  # the report and the scan file, or neither
         path = write_report(tree, args.output, circadian_table=table, dpi=args.dpi,
                             progress=progress, started=_STARTED, outputs=out,
@@ -491,7 +517,6 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     from tfhrv.core.files import OutputSet
     from tfhrv.dataset.netcdf import write_tree
     from tfhrv.io.readers import read_recording
-    from tfhrv.viz.report import write_report
 
     demo = Path(tfhrv.__file__).resolve().parents[1] / "demo_data" / "sw01_day_worker.csv.gz"
     if not demo.is_file():
@@ -506,6 +531,8 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     rec = read_recording(demo, tz=args.tz)
     tree, table = _pipeline(rec, ScanOptions(), progress, _circadian_options(args),
                             _sleep_log(args, rec.record_id), args=args)
+    from tfhrv.viz.report import write_report  # loaded during the analysis (_load_report)
+
     progress.stage(f"write {out / 'sw01_day_worker.nc'}")
     atomic_csv = out / "sw01_day_worker.circadian.csv"
     with OutputSet() as staged:  # all three or none

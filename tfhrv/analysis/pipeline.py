@@ -18,7 +18,7 @@ becomes NaN; any other error propagates.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import asdict, dataclass, field
 from types import MappingProxyType
 from typing import Literal
@@ -432,11 +432,14 @@ def _blocks(windows: list[Window]) -> list[tuple[int, int]]:
 
 
 def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
-                            workers: int, progress: Progress) -> tuple | None:
+                            workers: int, progress: Progress,
+                            while_waiting: Callable[[], object] | None = None
+                            ) -> tuple | None:
     """Both tiers and the whole-record parts (:func:`_record_parts`), shared among
     ``workers`` forked processes, or None when forking is unavailable or does not pay.
     Every window is computed by the same function with the same seed as in the serial
-    path, so results are identical."""
+    path, so results are identical.  ``while_waiting`` runs in this process once the
+    workers have their jobs (it would otherwise wait idle for them)."""
     import multiprocessing as mp
 
     if "fork" not in mp.get_all_start_methods():
@@ -457,7 +460,10 @@ def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
     progress.start(sum(len(ws) for ws in windows.values()), f"windows ({workers} processes)")
     try:
         with mp.get_context("fork").Pool(workers) as pool:
-            for res in pool.imap_unordered(_fork_job, jobs):
+            results = pool.imap_unordered(_fork_job, jobs)
+            if while_waiting is not None:
+                while_waiting()
+            for res in results:
                 done.append(res)
                 progress.advance(res[2] - res[1])
     finally:
@@ -479,7 +485,8 @@ def _analyse_tiers_parallel(cleaned: CleanResult, opt: ScanOptions, full: bool,
 
 def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = None,
                    detail: Literal["battery", "full"] = "full", workers: int = 1,
-                   progress: Progress = SILENT) -> RecordAnalysis:
+                   progress: Progress = SILENT,
+                   while_waiting: Callable[[], object] | None = None) -> RecordAnalysis:
     """Analyse one cleaned recording: windows, battery, fits, whole-record verdict.
 
     Parameters
@@ -500,6 +507,11 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
         record; a cohort keeps 1 per record and runs records in parallel instead.
     progress : tfhrv.core.progress.Progress, optional
         Told each window and stage (default: silent).
+    while_waiting : callable, optional
+        Work of the caller's that does not depend on the analysis (for example the imports
+        and the matplotlib warm-up of ``tfhrv report``): run in this process while forked
+        workers compute the windows, where it would otherwise wait idle; after the
+        analysis when there are no workers.
 
     Returns
     -------
@@ -509,13 +521,15 @@ def analyse_record(cleaned: CleanResult, /, *, options: ScanOptions | None = Non
     opt = options or ScanOptions()
     full = detail == "full"
     workers = check_int(workers, "workers", minimum=1)
-    parallel = (_analyse_tiers_parallel(cleaned, opt, full, workers, progress) if workers > 1
-                else None)
+    parallel = (_analyse_tiers_parallel(cleaned, opt, full, workers, progress, while_waiting)
+                if workers > 1 else None)
     if parallel is None:
         short = _analyse_tier(cleaned, opt.short, opt, full=full, progress=progress)
         long = _analyse_tier(cleaned, opt.long, opt, full=full, progress=progress)
         progress.stage("whole-record fits and FFT-slope verdict")
         measures, fl, diag, mf = _record_parts(cleaned, opt, full)
+        if while_waiting is not None:
+            while_waiting()
     else:
         short, long, (measures, fl, diag, mf) = parallel
     assessment = assess_record(cleaned, long_categories=long.categories,

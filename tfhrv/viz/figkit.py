@@ -9,7 +9,7 @@ from __future__ import annotations
 import datetime as dt
 import json
 from dataclasses import dataclass
-from functools import wraps
+from functools import cache, wraps
 
 import numpy as np
 import xarray as xr
@@ -74,11 +74,12 @@ def _figure_function(build):
     return wrapper
 
 
+@cache
 def warm_up() -> None:
     """Import matplotlib's figure and Agg modules and draw one tiny figure with plain text,
     mathtext and a log axis, so that processes forked afterwards inherit the loaded
     modules, fonts and parser instead of each loading them again (about 0.4 s per process;
-    the figures themselves do not change)."""
+    the figures themselves do not change).  Done once per process."""
     import io
 
     from matplotlib.backends.backend_agg import FigureCanvasAgg
