@@ -542,7 +542,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
                                                             float_format="%.6g"))
         report = write_report(tree, out / "sw01_day_worker_report.html",
                               circadian_table=table, dpi=args.dpi, progress=progress,
-                              started=_STARTED, outputs=staged)
+                              started=_STARTED, outputs=staged, workers=_workers())
     print(f"verdict: {tree['/record'].attrs['verdict']}")
     print(f"wrote {out / 'sw01_day_worker.nc'} and {atomic_csv}")
     print(f"report: {report.resolve()}")
