@@ -227,6 +227,18 @@ def test_open_tree_dimensions_from_ids_or_scales(small_tree, tmp_path):
             xr.testing.assert_identical(open_tree(path, check=False), ref.load())
 
 
+def test_writer_builds_the_file_in_memory_only(small_tree, tmp_path, monkeypatch):
+    # The file is built by HDF5's core driver without a backing store: a file of the
+    # in-memory image's name in the working folder must stay untouched.
+    monkeypatch.chdir(tmp_path)
+    bystander = tmp_path / "tfhrv-in-memory.nc"
+    bystander.write_text("not ours")
+    out = write_tree(small_tree, tmp_path / "out.nc")
+    assert bystander.read_text() == "not ours"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out.nc", "tfhrv-in-memory.nc"]
+    xr.testing.assert_identical(open_tree(out, check=False), small_tree)
+
+
 def test_same_input_same_numbers():
     rec, _ = schedule_recording(5.0, seed=3)
     opt = ScanOptions()
