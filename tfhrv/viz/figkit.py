@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from functools import cache, wraps
 
@@ -93,6 +94,49 @@ def warm_up() -> None:
         ax.plot([1.0, 100.0], [0.0, 1.0])
         ax.set_title(r"$\alpha$ warm-up")
         fig.savefig(io.BytesIO(), format="png")
+
+
+#: What forked figure workers read (set just before forking; never pickled).
+_FORK_STATE: dict = {}
+
+
+def _draw_item(i: int):
+    st = _FORK_STATE
+    return st["draw"](st["items"][i])
+
+
+def draw_each(items: Sequence, draw: Callable, /, *, workers: int = 1, progress=None) -> list:
+    """``draw(item)`` for every item, in order: with ``workers`` > 1 in forked processes
+    (POSIX only) that inherit matplotlib loaded once here (:func:`warm_up`), else in this
+    process.  matplotlib's Agg rendering is deterministic, so a PNG drawn by a worker is
+    the bytes drawn here.  ``progress`` (a :class:`tfhrv.core.progress.Progress`) is told
+    each item under "figures"."""
+    import multiprocessing as mp
+
+    from tfhrv.core.progress import SILENT
+
+    track = (progress or SILENT).track
+    _FORK_STATE.update(draw=draw, items=tuple(items))
+    n = len(_FORK_STATE["items"])
+    try:
+        if workers > 1 and n > 1 and "fork" in mp.get_all_start_methods():
+            warm_up()
+            with mp.get_context("fork").Pool(min(workers, n)) as pool:
+                return list(track(pool.imap(_draw_item, range(n)), total=n, label="figures"))
+        return [_draw_item(i) for i in track(range(n), total=n, label="figures")]
+    finally:
+        _FORK_STATE.clear()
+
+
+def _parameters(tree: xr.DataTree, section: str) -> dict:
+    """One section (``"scan"``, ``"clean"``) of the parameters stored in a scan file, or
+    {} when the file has none or they cannot be read."""
+    try:
+        params = json.loads(str(tree.attrs.get("parameters", "{}")))
+    except ValueError:
+        return {}
+    part = params.get(section, {}) if isinstance(params, dict) else {}
+    return part if isinstance(part, dict) else {}
 
 
 def _ds(tree: xr.DataTree, group: str) -> xr.Dataset | None:
@@ -302,7 +346,7 @@ def _fmt_ci(v: float, ci) -> str:
 
 def _gap_s(tree: xr.DataTree) -> float:
     try:
-        return float(json.loads(tree.attrs.get("parameters", "{}"))["clean"]["gap_min_s"])
+        return float(_parameters(tree, "clean")["gap_min_s"])
     except (KeyError, TypeError, ValueError):
         return 3.0
 

@@ -60,7 +60,7 @@ from tfhrv.viz.figkit import (
     _tier_hours,
     _time_axis,
     _values,
-    warm_up,
+    draw_each,
 )
 from tfhrv.viz.multifractal import multifractal_sentence, multifractal_spectrum
 
@@ -767,23 +767,19 @@ def save_figure(fig, path: str | Path, /, *, fmt: str = "png", dpi: float = 110.
     return outputs.add(path, write) if outputs is not None else atomic_write(path, write)
 
 
-#: What forked figure workers read (set just before forking; never pickled).
-_FORK_STATE: dict = {}
-
-
-def _figure_bytes(name: str) -> list[bytes]:
-    """One figure of :data:`FIGURES` rendered in every format of the fork state."""
+def _figure_bytes(name: str, tree: xr.DataTree, formats: tuple[str, ...], dpi: float,
+                  alpha_range: tuple[float, float] | None) -> list[bytes]:
+    """One figure of :data:`FIGURES` rendered in each of ``formats``."""
     import io
 
-    st = _FORK_STATE
     func = FIGURES[name]
-    fig = (func(st["tree"], alpha_range=st["alpha_range"]) if name.startswith("scale_map")
-           else func(st["tree"]))
+    fig = (func(tree, alpha_range=alpha_range) if name.startswith("scale_map")
+           else func(tree))
     out = []
-    for fmt in st["formats"]:
+    for fmt in formats:
         buf = io.BytesIO()
         with _rc():  # our style, including the fixed SVG id salt (same bytes every run)
-            fig.savefig(buf, format=fmt, dpi=st["dpi"], metadata=_NO_DATE[fmt])
+            fig.savefig(buf, format=fmt, dpi=dpi, metadata=_NO_DATE[fmt])
         out.append(buf.getvalue())
     return out
 
@@ -813,42 +809,29 @@ def save_all(tree: xr.DataTree, directory: str | Path, /, *,
         Stage the files there (renamed with the command's other outputs) instead of
         writing each at once.
     workers : int, default 1
-        Processes drawing the figures (forked, POSIX only; matplotlib's rendering is
-        deterministic, so the files are the same bytes as drawn in one process).  The
-        files are written by this process.
+        Processes drawing the figures (forked, POSIX only: :func:`~tfhrv.viz.figkit.draw_each`).
+        PNGs are the same bytes as drawn in one process; an SVG the same drawing, with
+        a clip-path id that can differ in its hash.  The files are written by this process.
 
     Returns
     -------
     list of Path
         The files written, ``<prefix><figure>.<format>``, in :data:`FIGURES` order.
     """
-    import multiprocessing as mp
-
     from tfhrv.core.files import atomic_write
-    from tfhrv.core.progress import SILENT
     from tfhrv.core.validation import check_int
 
     if isinstance(formats, str):
         formats = (formats,)
+    formats = tuple(formats)
     for fmt in formats:
         check_choice(fmt, "formats", ("png", "svg", "pdf"))
     dpi = check_positive(dpi, "dpi")
     workers = check_int(workers, "workers", minimum=1)
     out = Path(directory)
     names = list(FIGURES)
-    _FORK_STATE.update(tree=tree, formats=tuple(formats), dpi=dpi, alpha_range=alpha_range)
-    track = (progress or SILENT).track
-    try:
-        if workers > 1 and "fork" in mp.get_all_start_methods():
-            warm_up()  # matplotlib loaded once here, inherited by the workers
-            with mp.get_context("fork").Pool(min(workers, len(names))) as pool:
-                rendered = list(track(pool.imap(_figure_bytes, names), total=len(names),
-                                      label="figures"))
-        else:
-            rendered = [_figure_bytes(n) for n in track(names, total=len(names),
-                                                        label="figures")]
-    finally:
-        _FORK_STATE.clear()
+    rendered = draw_each(names, lambda n: _figure_bytes(n, tree, formats, dpi, alpha_range),
+                         workers=workers, progress=progress)
     written = []
     for name, blobs in zip(names, rendered, strict=True):
         for fmt, data in zip(formats, blobs, strict=True):

@@ -19,6 +19,7 @@ from tfhrv.viz.figkit import (
     _figure_function,
     _message,
     _new_figure,
+    _parameters,
     _scalar,
     _style,
     _values,
@@ -34,14 +35,7 @@ _CAUTION = ("Research use only: c2 and the width describe the variability of thi
 
 def _switched_off(tree: xr.DataTree) -> bool:
     """Whether the scan's stored parameters say the multifractal analysis was off."""
-    import json
-
-    try:
-        params = json.loads(str(tree.attrs.get("parameters", "{}")))
-    except ValueError:
-        return False
-    scan = params.get("scan", {}) if isinstance(params, dict) else {}
-    return isinstance(scan, dict) and scan.get("multifractal") is False
+    return _parameters(tree, "scan").get("multifractal") is False
 
 
 def multifractal_sentence(tree: xr.DataTree, /) -> str:

@@ -27,7 +27,7 @@ import xarray as xr
 
 from tfhrv.calibration.calibrate import interval_text
 from tfhrv.core.caution import CAUTION
-from tfhrv.viz.figkit import warm_up
+from tfhrv.viz.figkit import _parameters, draw_each
 
 __all__ = ["SECTIONS", "build_report", "write_report"]
 
@@ -656,41 +656,8 @@ _CALIBRATION_TEXT = {
 
 
 def _calibration_model(tree: xr.DataTree) -> str:
-    params = _json(tree.attrs.get("parameters", ""), {})
-    scan_params = params.get("scan", {}) if isinstance(params, dict) else {}
-    model = scan_params.get("calibration_model", "powerlaw") if isinstance(
-        scan_params, dict) else None
+    model = _parameters(tree, "scan").get("calibration_model", "powerlaw")
     return model if model in _CALIBRATION_TEXT else "powerlaw"
-
-
-#: What forked figure workers read (set just before forking; never pickled).
-_FORK_STATE: dict = {}
-
-
-def _render_one(i: int) -> str:
-    st = _FORK_STATE
-    _, func, alt, cap = st["specs"][i]
-    return _figure(func(st["tree"]), st["dpi"], alt, cap)
-
-
-def _render_figures(tree: xr.DataTree, specs: tuple, dpi: float, workers: int,
-                    progress) -> list[str]:
-    """The figures as HTML ``<figure>`` elements, in the order of ``specs``; with
-    ``workers`` > 1 drawn in forked processes (matplotlib's Agg rendering is
-    deterministic, so the PNG bytes are the same as drawn here)."""
-    import multiprocessing as mp
-
-    _FORK_STATE.update(tree=tree, specs=specs, dpi=dpi)
-    try:
-        if workers > 1 and "fork" in mp.get_all_start_methods():
-            warm_up()  # loaded once here, inherited by the workers
-            with mp.get_context("fork").Pool(min(workers, len(specs))) as pool:
-                return list(progress.track(pool.imap(_render_one, range(len(specs))),
-                                           total=len(specs), label="figures"))
-        return [_render_one(i) for i in progress.track(range(len(specs)), total=len(specs),
-                                                       label="figures")]
-    finally:
-        _FORK_STATE.clear()
 
 
 def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None = None,
@@ -733,8 +700,6 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
         circadian_table = tree["circadian"].to_dataset().to_dataframe().reset_index(drop=True)
     rid = str(tree.attrs.get("record_id", ""))
     caution = _e(CAUTION)
-    from tfhrv.core.progress import SILENT
-
     specs = (
         ("overview", plots.overview, "NN intervals and exponent tracks over time",
          "NN intervals (grey), 5-min mean (black), removed beats (ticks), gaps (grey spans), "
@@ -767,9 +732,9 @@ def build_report(tree: xr.DataTree, /, *, circadian_table: pd.DataFrame | None =
          "stationarity category; grey: not). A flat h(q) is monofractal. Right: f(α), "
          "with the calibrated c2 and width."),
     )
-    figs = dict(zip((sp[0] for sp in specs),
-                    _render_figures(tree, specs, dpi, workers, progress or SILENT),
-                    strict=True))
+    drawn = draw_each(specs, lambda sp: _figure(sp[1](tree), dpi, sp[2], sp[3]),
+                      workers=workers, progress=progress)
+    figs = dict(zip((sp[0] for sp in specs), drawn, strict=True))
     created = dt.datetime.now(dt.UTC).isoformat(timespec="seconds")
     refs = "".join(f"<li>{_e(r)}</li>" for r in _REFERENCES)
     calibration = _CALIBRATION_TEXT[_calibration_model(tree)]
