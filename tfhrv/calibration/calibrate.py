@@ -43,6 +43,8 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import io
+import threading
 from importlib import resources
 
 import numpy as np
@@ -188,22 +190,36 @@ def table_sha256() -> str:
 
 
 @functools.cache
-def _tables() -> dict[tuple[str, str], CalibrationTable]:
+def _table_file() -> np.lib.npyio.NpzFile:
+    """The shipped table file, read into memory once (no file stays open); its arrays
+    are read on first use under :data:`_TABLE_LOCK` (a run needs a few of the 26 tables)."""
     ref = resources.files("tfhrv").joinpath("data", _TABLE_FILE)
-    out: dict[tuple[str, str], CalibrationTable] = {}
-    with resources.as_file(ref) as path, np.load(path) as z:
-        for name in [str(s) for s in z["presets"]]:
-            for model in [str(m) for m in z["models"]]:
-                pre = f"{name}__{model}__"
-                out[(name, model)] = CalibrationTable(
-                    preset=name, model=model, truth=z[pre + "truth"],
-                    lengths=z[pre + "lengths"],
-                    classes=tuple(str(c) for c in z[pre + "classes"]),
-                    share=z[pre + "share"], mean=z[pre + "mean"], sd=z[pre + "sd"],
-                    q_low=z[pre + "q_low"], q_high=z[pre + "q_high"],
-                    n_rep=int(z[pre + "n_rep"]),
-                )
-    return out
+    return np.load(io.BytesIO(ref.read_bytes()))
+
+
+_TABLE_LOCK = threading.Lock()
+
+
+@functools.cache
+def _table_index() -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """The preset and model names of the shipped table file."""
+    with _TABLE_LOCK:
+        z = _table_file()
+        return tuple(str(s) for s in z["presets"]), tuple(str(m) for m in z["models"])
+
+
+@functools.cache
+def _table(preset: str, model: str) -> CalibrationTable:
+    """One table of the shipped file."""
+    pre = f"{preset}__{model}__"
+    with _TABLE_LOCK:
+        z = _table_file()
+        return CalibrationTable(
+            preset=preset, model=model, truth=z[pre + "truth"], lengths=z[pre + "lengths"],
+            classes=tuple(str(c) for c in z[pre + "classes"]),
+            share=z[pre + "share"], mean=z[pre + "mean"], sd=z[pre + "sd"],
+            q_low=z[pre + "q_low"], q_high=z[pre + "q_high"], n_rep=int(z[pre + "n_rep"]),
+        )
 
 
 def load_table(preset: str, /, *, model: str = "powerlaw") -> CalibrationTable:
@@ -215,9 +231,8 @@ def load_table(preset: str, /, *, model: str = "powerlaw") -> CalibrationTable:
     if model not in MODELS:
         raise ValueError(f"model must be one of {MODELS!r}, got {model!r}")
     if preset not in _table_names():
-        names = tuple(dict.fromkeys(p for p, _ in _tables()))
-        raise ValueError(f"preset must be one of {names!r}, got {preset!r}")
-    return _tables()[(preset, model)]
+        raise ValueError(f"preset must be one of {_table_index()[0]!r}, got {preset!r}")
+    return _table(preset, model)
 
 
 #: the options the tables were simulated with; other values have no table
@@ -226,7 +241,7 @@ _TABLE_VANISHING_MOMENTS = 3
 
 @functools.cache
 def _table_names() -> frozenset[str]:
-    return frozenset(p for p, _ in _tables())
+    return frozenset(_table_index()[0])
 
 
 def table_name(estimator: str, fit: ScalingFit, /) -> str | None:

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
-from tfhrv.core.validation import check_positive
+from tfhrv.core.validation import check_positive, readonly
 
 __all__ = ["fbm", "fgn", "fgn_autocovariance", "powerlaw_noise"]
 
@@ -68,14 +70,22 @@ def fgn(n: int, hurst: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
         raise ValueError(f"hurst must be in (0, 1), got {hurst!r}")
     sigma = check_positive(sigma, "sigma")
     gen = np.random.default_rng(rng)
-    gamma = fgn_autocovariance(float(hurst), np.arange(n + 1))
+    root = _circulant_root(n, float(hurst))
+    m = root.size
+    z = gen.standard_normal(m) + 1j * gen.standard_normal(m)
+    w = np.fft.fft(root * z)
+    return sigma * w.real[:n]
+
+
+@functools.lru_cache(maxsize=4)
+def _circulant_root(n: int, hurst: float) -> np.ndarray:
+    """sqrt(lambda / 2n) of the Davies-Harte circulant embedding of n fGn samples
+    (read-only; cached, since a null ensemble draws many paths of one length and H)."""
+    gamma = fgn_autocovariance(hurst, np.arange(n + 1))
     row = np.concatenate([gamma, gamma[-2:0:-1]])
     lam = np.fft.fft(row).real
     lam[lam < 0] = 0.0  # round-off only; exact eigenvalues are >= 0 for fGn
-    m = row.size
-    z = gen.standard_normal(m) + 1j * gen.standard_normal(m)
-    w = np.fft.fft(np.sqrt(lam / m) * z)
-    return sigma * w.real[:n]
+    return readonly(np.sqrt(lam / row.size))
 
 
 def fbm(n: int, hurst: float, /, *, sigma: float = 1.0, rng=None) -> np.ndarray:
