@@ -239,6 +239,25 @@ def test_out_of_range_raw_gives_nan_ends_not_numbers():
     assert np.isfinite(edge.ci[0]) and edge.ci[0] < load_table("alpha2").truth[-1]
 
 
+def test_beyond_mean_curve_the_near_end_is_open_even_where_the_band_folds_back():
+    # Confidence-belt inversion (Neyman 1937, Phil Trans R Soc A 236:333-380): a raw value
+    # above every mean of the belt cannot be inverted to a point estimate, so the exponent
+    # stays the raw slope and nothing bounds the truth from above.  The 5-min spectral
+    # preset's upper quantile folds back at the top of its grid; the near end used to come
+    # out finite and below the exponent there (a raw 2.94 with [2.59, 2.87]).
+    n = 400
+    rng = np.random.default_rng(5)
+    fit = estimate("beta_spectral_short", 800.0 + 4.0 * np.cumsum(rng.standard_normal(n)))
+    c = load_table("beta_spectral_short").curves(n)
+    top = float(np.nanmax(c.mean))
+    for v in np.linspace(top + 0.01, float(np.nanmax(c.q_high)) - 0.01, 12):
+        cal = calibrate(dataclasses.replace(fit, exponent=float(v)),
+                        estimator="beta_spectral_short", n=n)
+        assert cal.exponent == cal.slope_exponent == v
+        assert np.isnan(cal.ci[1]), (v, cal.ci)
+        assert np.isnan(cal.ci[0]) or cal.ci[0] <= v
+
+
 def test_load_table_unknown_preset_names_options():
     with pytest.raises(ValueError, match="preset must be one of") as info:
         load_table("alpha3")

@@ -388,9 +388,11 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
     ScalingFit
         A copy with ``exponent`` bias-corrected, ``se`` and ``ci`` calibrated,
         ``slope_exponent`` the uncorrected value and ``calibrated=True``; ``options`` record
-        the table, the model and the class used.  When the raw value lies outside the
-        tabulated range the interval end that cannot be found is NaN and the exponent is
-        left uncorrected.  When no table was simulated for the fit's options (wavelet
+        the table, the model and the class used.  When the raw value lies beyond the
+        range of the mean curve the exponent is left uncorrected and the interval end on
+        that side is NaN (open; such an interval is never the narrowest when the primary
+        estimator is chosen); an end that reaches the tabulated range's edge is NaN as
+        well.  When no table was simulated for the fit's options (wavelet
         vanishing moments other than 3, :func:`table_name`) the fit is returned
         uncorrected with ``calibrated=False`` and a NaN interval.
 
@@ -422,8 +424,17 @@ def calibrate(fit: ScalingFit, /, *, estimator: str, n: int | None = None,
     est = _point(truth, mean, raw)
     lo, hi = _confidence_set(truth, c.q_low, c.q_high, raw)
     if not np.isfinite(est):
+        # beyond the mean curve the exponent stays the raw slope, and the interval end on
+        # that side is open: a finite end there only marks where the simulated band folds
+        # back or ends, not how far the truth may lie (a raw spectral slope of 2.9 in a
+        # 5-min window gave [2.73, 2.82] before); the other end is a valid bound and stays
         est = raw
         se = float(fit.se)
+        finite = mean[np.isfinite(mean)]
+        if finite.size and raw > finite.max():
+            hi = float("nan")
+        else:
+            lo = float("nan")
     else:
         local = max(float(np.interp(est, truth[np.isfinite(slope)],
                                     slope[np.isfinite(slope)])), 1e-3)
