@@ -11,6 +11,7 @@ import base64
 import datetime as dt
 import html
 import json
+import re
 from dataclasses import replace
 from html.parser import HTMLParser
 
@@ -76,7 +77,9 @@ def test_sections_present_in_order(doc):
 
 
 def test_no_external_reference_or_script(doc):
-    low = doc.lower()
+    # the embedded images' base64 payloads are left out: read case-blind, any four of their
+    # letters can spell "http" (about once per megabyte of base64)
+    low = re.sub(r"base64,[a-z0-9+/=]+", "base64,", doc.lower())
     for bad in ("http", "src=\"http", "<script", "<link", "<iframe", "url(", "@import",
                 "javascript:", "//cdn"):
         assert bad not in low, bad

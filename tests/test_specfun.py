@@ -198,3 +198,15 @@ def test_fast_lengths_equal_scipy_for_every_n_up_to_100000():
         assert sf.prev_fast_len(k) == sp_fft.prev_fast_len(k, real=True)
     with pytest.raises(ValueError, match="n must be an integer >= 1"):
         sf.next_fast_len(0)
+
+
+def test_ndtri_array_matches_scipy_and_the_scalar_function():
+    # Wichura (1988) AS 241 against SciPy's ndtri (Cephes), over the whole open interval
+    # and both tails; the scalar ndtri (statistics.NormalDist, the same algorithm) exactly.
+    p = np.concatenate([np.linspace(1e-9, 1 - 1e-9, 20001), 10.0 ** -np.arange(1, 300, 7),
+                        1 - 10.0 ** -np.arange(1, 16)])
+    got = sf.ndtri_array(p)
+    assert_allclose(got, special.ndtri(p), rtol=1e-14, atol=1e-14)
+    assert np.array_equal(got[::401], [sf.ndtri(v) for v in p[::401]])
+    with pytest.raises(ValueError, match="p must be in"):
+        sf.ndtri_array([0.5, 1.0])

@@ -22,7 +22,7 @@ from statsmodels.tsa.stattools import adfuller, kpss
 from tfhrv.core.errors import InsufficientDataError
 from tfhrv.stationarity.adf import adf_test
 from tfhrv.stationarity.battery import CATEGORIES, stationarity_battery
-from tfhrv.stationarity.drift import drift_test
+from tfhrv.stationarity.drift import drift_test, normal_scores
 from tfhrv.stationarity.kpss import kpss_test
 from tfhrv.stationarity.surrogates import _trim_ends, surrogates
 from tfhrv.synth import fgn
@@ -185,6 +185,30 @@ def test_iaaft_surrogates_keep_values_and_roughly_the_spectrum():
     assert_allclose(band_sur, np.broadcast_to(band, band_sur.shape), rtol=0.2)
 
 
+def test_drift_test_size_on_heavy_tailed_and_skewed_stationary_noise():
+    # Independent noise is stationary whatever its distribution, so a level-alpha test must
+    # reject about alpha of such windows (binomial: at most 12 of 60 at alpha = 0.05 has
+    # probability > 0.999 when the true rate is 0.05). Gaussian phase surrogates on the raw
+    # values rejected about 70 % of Student-t(3) and 85 % of lognormal windows; on normal
+    # scores (Theiler et al. 1992, amplitude adjustment) the size is nominal.
+    gen = np.random.default_rng(20260412)
+    for draw in (lambda: gen.standard_t(3, 400), lambda: gen.lognormal(0.0, 0.8, 400)):
+        rejected = sum(drift_test(800.0 + 30.0 * draw(), rng=s).pvalue < 0.05
+                       for s in range(60))
+        assert rejected <= 12, rejected
+
+
+def test_normal_scores_are_blom_scores_of_mid_ranks():
+    from scipy.special import ndtri
+    from scipy.stats import rankdata
+
+    x = np.round(np.random.default_rng(4).standard_t(3, 500) * 4.0)  # many ties
+    expected = ndtri((rankdata(x, method="average") - 0.375) / (x.size + 0.25))
+    assert_allclose(normal_scores(x), expected, rtol=1e-14, atol=1e-15)
+    assert np.array_equal(np.argsort(normal_scores(x), kind="stable"),
+                          np.argsort(x, kind="stable"))
+
+
 def test_surrogates_reproducible_by_seed():
     x = np.random.default_rng(0).standard_normal(300)
     assert_allclose(surrogates(x, rng=3), surrogates(x, rng=3), rtol=0)
@@ -197,11 +221,20 @@ def test_surrogates_reproducible_by_seed():
 # --------------------------------------------------------------------------- drift
 
 
-def test_drift_statistics_match_direct_computation(rng):
-    # Direct numpy computation on np.array_split blocks (definition in drift_test Notes).
+@pytest.mark.parametrize("transform", ["none", "normal-scores"])
+def test_drift_statistics_match_direct_computation(rng, transform):
+    # Direct numpy computation on np.array_split blocks (definition in drift_test Notes);
+    # normal scores from SciPy: Blom (1958) positions of average ranks, Phi^-1 by ndtri.
+    from scipy.special import ndtri
+    from scipy.stats import rankdata
+
     x = 800.0 + 30.0 * rng.standard_normal(347)
     x[200:] += 25.0
-    res = drift_test(x, n_subwindows=6, n_surrogates=19, rng=0)
+    x = np.round(x / 7.8125) * 7.8125  # quantised as NN intervals at 128 Hz: ties
+    res = drift_test(x, n_subwindows=6, n_surrogates=19, transform=transform, rng=0)
+    assert res.transform == transform
+    if transform == "normal-scores":
+        x = ndtri((rankdata(x) - 0.375) / (x.size + 0.25))
     blocks = np.array_split(x, 6)
     means = np.array([b.mean() for b in blocks])
     sds = np.array([b.std(ddof=1) for b in blocks])

@@ -138,8 +138,10 @@ def _tier() -> list[Variable]:
         Variable("adf_pvalue", t, "1", "ADF p-value (MacKinnon 1994)"),
         Variable("kpss_stat", t, "1", "KPSS statistic (level null)"),
         Variable("kpss_pvalue", t, "1", "KPSS p-value, clipped to [0.01, 0.10] by the table"),
-        Variable("mean_drift", t, "1", "spread of sub-window means over pooled within-SD"),
-        Variable("sd_drift", t, "1", "largest over smallest sub-window SD"),
+        Variable("mean_drift", t, "1", "spread of sub-window means over pooled within-SD "
+                 "(of the window's normal scores)"),
+        Variable("sd_drift", t, "1", "largest over smallest sub-window SD (of the window's "
+                 "normal scores)"),
         Variable("drift_pvalue", t, "1",
                  "p-value of the drift statistics against phase-randomised surrogates"),
         Variable("stationarity", t, None, "stationarity category of the window",

@@ -4,19 +4,28 @@ The null distribution is long-memory noise with the window's own spectrum, not w
 (heart period drifts by nature): the statistics of the window are ranked among those of
 its phase-randomised or IAAFT surrogates (:mod:`tfhrv.stationarity.surrogates`).
 
+The window is first replaced by its normal scores (rank-based), so that a stationary window
+with heavy tails or skew is not taken for a drifting one (the Gaussian surrogates have
+neither); see :func:`drift_test`.
+
 References
 ----------
 Borgnat P, Flandrin P, Honeine P, Richard C, Xiao J. Testing stationarity with
 surrogates: a time-frequency approach. IEEE Trans Signal Process 2010;58:3459-3470.
 doi:10.1109/TSP.2010.2043971
+Theiler J, Eubank S, Longtin A, Galdrikian B, Farmer JD. Testing for nonlinearity in time
+series: the method of surrogate data. Physica D 1992;58:77-94.
+doi:10.1016/0167-2789(92)90102-S
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
 
+from tfhrv.core.specfun import ndtri_array
 from tfhrv.core.validation import as_1d_float, check_choice, check_int, readonly
 from tfhrv.stationarity.surrogates import (
     _END_MATCH,
@@ -28,7 +37,10 @@ from tfhrv.stationarity.surrogates import (
     surrogates,
 )
 
-__all__ = ["DriftResult", "drift_test"]
+__all__ = ["DriftResult", "drift_test", "normal_scores"]
+
+Transform = Literal["normal-scores", "none"]
+_TRANSFORMS = ("normal-scores", "none")
 
 
 @dataclass(frozen=True, slots=True)
@@ -53,6 +65,9 @@ class DriftResult:
         End handling, "none" or "trim".
     n_used : int
         Samples actually tested (fewer than the input after trimming).
+    transform : str
+        "normal-scores" (the statistics are those of the window's normal scores) or
+        "none" (of the values themselves).
     surrogate_mean_drift, surrogate_sd_drift : numpy.ndarray
         The B surrogate values of both statistics (read-only).
     trend_pvalue : float
@@ -74,6 +89,34 @@ class DriftResult:
     surrogate_mean_drift: np.ndarray
     surrogate_sd_drift: np.ndarray
     trend_pvalue: float = float("nan")
+    transform: str = "normal-scores"
+
+
+def normal_scores(x, /) -> np.ndarray:
+    """Normal scores of a series: Phi^-1((r - 3/8) / (n + 1/4)) of each value's rank r.
+
+    Blom's (1958) plotting positions; tied values get the score of their mid-rank, so equal
+    values stay equal (NN intervals are quantised by the ECG sampling rate).  The result
+    keeps the order of the values in time and has an approximately standard normal
+    distribution whatever the distribution of ``x``; it is the first step of the
+    amplitude-adjusted surrogates of Theiler et al. (1992).
+
+    References
+    ----------
+    Blom G. Statistical Estimates and Transformed Beta-Variables. New York: Wiley; 1958.
+    Theiler J, Eubank S, Longtin A, Galdrikian B, Farmer JD. Physica D 1992;58:77-94.
+    doi:10.1016/0167-2789(92)90102-S
+
+    Examples
+    --------
+    >>> [round(float(v), 3) for v in normal_scores([5.0, 1.0, 3.0, 3.0])]
+    [1.049, -1.049, 0.0, 0.0]
+    """
+    x = as_1d_float(x, "x", min_len=1)
+    values, where, counts = np.unique(x, return_inverse=True, return_counts=True)
+    first = np.cumsum(counts) - counts  # 0-based rank of the first of each tied group
+    mid = first + (counts + 1) / 2.0  # 1-based mid-rank
+    return ndtri_array((mid - 0.375) / (x.size + 0.25))[where]
 
 
 def _drift_stats(z: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
@@ -118,6 +161,7 @@ def drift_test(
     n_surrogates: int = 99,
     method: SurrogateMethod = "phase",
     end_match: EndMatch = "none",
+    transform: Transform = "normal-scores",
     rng=DEFAULT_SEED,
 ) -> DriftResult:
     """Windowed mean and SD drift tested against spectrum-preserving surrogates.
@@ -142,6 +186,10 @@ def drift_test(
         "none": test the window as it is; "trim": first cut at most min(n // 10, 100)
         samples from each end so that the end values and slopes match best
         (Schreiber & Schmitz 2000). See Notes.
+    transform : {"normal-scores", "none"}, default "normal-scores"
+        "normal-scores": test the window's normal scores (:func:`normal_scores`; the values
+        ranked and mapped onto the normal distribution, their order in time kept);
+        "none": test the values themselves. See Notes.
     rng : None, int or numpy.random.Generator, default a fixed integer
         Seed or generator; the fixed default makes results reproducible.
 
@@ -173,19 +221,35 @@ def drift_test(
     last and first sample enters their spectrum (Schreiber & Schmitz 2000). Our
     default is the raw window: the null "stationary with this spectrum" is then
     tested as is. Measured with ``scripts/mc_stationarity.py`` and 300 seeds at
-    n = 350, alpha = 0.05, B = 99: rejection rate 0.073 for fGn with H = 0.9 and
-    0.10 for H = 0.95 (liberal for strong long memory; 0.030 for white noise, 0.027
-    for H = 0.6), power 0.95 against a 2-SD level shift in fGn with H = 0.6.
+    n = 350, alpha = 0.05, B = 99 (normal scores): rejection rate 0.063 for fGn with
+    H = 0.9 and 0.067 for H = 0.95 (slightly liberal for strong long memory; the battery
+    called 0.030 of white-noise and 0.040 of H = 0.6 windows drifting), power 0.97
+    against a 2-SD level shift in fGn with H = 0.6.
     Subtracting the end-to-end line instead made the test badly liberal (about 0.4
     on white noise: the subtracted line is itself a coherent ramp), so we do not
-    offer it. ``end_match="trim"`` brings the size closer to nominal (0.053 and 0.060)
-    but loses power (0.63 against the same level shift).
+    offer it. ``end_match="trim"`` makes it conservative (0.037 and 0.037) and loses
+    power (0.60 against the same level shift).
+
+    Normal scores. Phase surrogates are Gaussian, so on the raw values the test also rejects
+    stationary windows that are merely not Gaussian: a heavy-tailed window's largest values
+    make one sub-window's SD stand out, which Gaussian surrogates rarely match. Measured with
+    ``scripts/mc_stationarity.py`` (alpha = 0.05, B = 99, 300 seeds of independent noise of
+    400 values): on the raw values Student t with 3 degrees of freedom was rejected in 74 %
+    of windows, lognormal noise in 84 %, Laplace noise in 26 %; on normal scores in 2.7 %,
+    2.0 % and 3.7 % (Gaussian noise: 1.7 % and 2.0 %). Power is kept (2-SD level shift in
+    fGn with H = 0.6, n = 350: 0.970 against 0.973) and long memory is handled no worse
+    (fGn with H = 0.9: 0.063 both; H = 0.95: 0.067 against 0.090). The transform is
+    monotone and keeps the order in time, so level shifts, trends and changes of spread
+    remain what the test sees. IAAFT surrogates would keep the distribution instead
+    (Schreiber & Schmitz 1996) at about twenty times the cost. ``mean_drift`` and
+    ``sd_drift`` are then statistics of the scores, not of milliseconds.
 
     References
     ----------
     Borgnat P, Flandrin P, Honeine P, Richard C, Xiao J. Testing stationarity with
     surrogates: a time-frequency approach. IEEE Trans Signal Process
     2010;58:3459-3470. doi:10.1109/TSP.2010.2043971
+    Blom G. Statistical Estimates and Transformed Beta-Variables. New York: Wiley; 1958.
     Theiler J, Eubank S, Longtin A, Galdrikian B, Farmer JD. Physica D 1992;58:77-94.
     doi:10.1016/0167-2789(92)90102-S
     Schreiber T, Schmitz A. Phys Rev Lett 1996;77:635-638.
@@ -208,8 +272,11 @@ def drift_test(
     if x.size < 3 * k:
         raise ValueError(f"x needs at least 3 values per sub-window ({3 * k}), got {x.size}")
     check_choice(end_match, "end_match", _END_MATCH)
+    check_choice(transform, "transform", _TRANSFORMS)
     y = _trim_ends(x) if end_match == "trim" else x
     y = y[:_fast_length(y.size)]
+    if transform == "normal-scores":
+        y = normal_scores(y)
     sur = surrogates(y, n_surrogates=b, method=method, rng=rng, dtype=np.float32)
     md_obs, sd_obs = _drift_stats(y[None, :], k)
     md_sur, sd_sur = _drift_stats(sur, k)
@@ -234,4 +301,5 @@ def drift_test(
         readonly(md_sur),
         readonly(sd_sur),
         p_trend,
+        transform,
     )
