@@ -50,6 +50,20 @@ def test_inspect_equals_scan_on_open_records(open_rr, name):
                                        exps[name_]["slope"], rtol=0, atol=0)
 
 
+def test_inspect_json_gives_the_withholding_reason_of_its_nulls(open_rr):
+    # chf216 (PhysioNet chf2db): the whole-record spectral slope is withheld (the log-log
+    # points depart from one line); the nulls it leaves in the JSON must say so, not "too
+    # short for the fit range" or "open interval end"
+    d = inspection_dict(inspect_record(clean(read_recording(open_rr / "chf2db/chf216.csv.gz"))))
+    withheld = {k: v["withheld"] for k, v in d["exponents"].items() if v and v["withheld"]}
+    assert withheld
+    for name, why in withheld.items():
+        keys = [k for k in d["missing"]
+                if k.startswith((f"exponents.{name}.", f"block_intervals.{name}."))]
+        assert f"exponents.{name}.value" in keys
+        assert all(d["missing"][k] == f"withheld, {why}" for k in keys), keys
+
+
 def test_battery_detail_has_no_per_window_values(rng):
     from tfhrv.signal.recording import Recording
 

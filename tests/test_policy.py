@@ -73,7 +73,9 @@ def test_cautions_and_missing_values():
     assert any(c.startswith("linearity") for c in v.cautions)
     v2 = fitness_verdict(**{**GOOD, "beta_wavelet": float("nan")})
     assert v2.verdict == "fit-with-cautions"
-    assert any("could not be computed" in c for c in v2.cautions)
+    assert any(c.startswith("agreement: the FFT and wavelet betas could not be compared")
+               for c in v2.cautions), v2.cautions
+    assert not any("_" in c.split(":")[1] for c in v2.cautions)  # no internal names
 
 
 def test_motion_class_recommends_dfa():

@@ -75,6 +75,10 @@ def _missing_reason(path: str, ins: Inspection) -> str:
         return "could not be computed on this record (see verdict_detail.cautions)"
     if path.startswith("quality."):
         return f"not computable from {q.n_kept} kept NN intervals"
+    fit = (ins.assessment.fits.get(path.split(".")[1])
+           if path.startswith(("exponents.", "block_intervals.")) else None)
+    if fit is not None and fit.withheld:  # the fit stands, the data hold no exponent
+        return f"withheld, {fit.withheld}"
     if path.startswith("exponents.") and ".ci[" in path:
         return ("open interval end: the calibration cannot bound the exponent on this side "
                 "at this length")
@@ -231,7 +235,8 @@ def format_inspection(ins: Inspection, /) -> str:
     blk = [f"{label} [{b.ci[0]:.2f}, {b.ci[1]:.2f}]" for key, label in (
         ("beta_spectral", "beta FFT"), ("beta_wavelet", "beta wavelet"), ("alpha1", "alpha1"),
         ("alpha2", "alpha2"), ("alpha_long", "alpha long"))
-        if (b := a.block.get(key)) is not None and np.isfinite(b.se)]
+        if (b := a.block.get(key)) is not None and np.isfinite(b.se)
+        and np.all(np.isfinite(b.ci))]
     if blk:
         lines.append("through day   " + "   ".join(blk))
         lines.append(" " * 14 + "(95 % intervals over 4-h blocks, heterogeneity through the day "

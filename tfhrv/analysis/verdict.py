@@ -196,6 +196,17 @@ RULES: tuple[Rule, ...] = (
          "Eke et al. 2000; the 1.5 cut is common practice", applies="wavelet_known"),
 )
 
+#: What a caution says when its quantity is not a finite number.
+_NOT_COMPUTED = {
+    "level_effect_excess": "the effect of the level changes could not be computed",
+    "disagreement": ("the FFT and wavelet betas could not be compared (one of them is "
+                     "missing or withheld)"),
+    "lack_of_fit_pvalue": "the lack-of-fit test of the FFT slope could not be computed",
+    "excess_scatter": "the scatter of the FFT slope's points could not be computed",
+    "curvature_pvalue": "the curvature test of the FFT slope could not be computed",
+    "beta_wavelet": "the wavelet beta could not be computed",
+}
+
 _Z95 = 1.959963984540054
 
 
@@ -327,9 +338,8 @@ def fitness_verdict(
             quiet = rule.name in ("level changes", "agreement") and not (
                 nonstationary_share > th.caution_nonstationary or rule.name == "agreement")
             if rule.name not in seen_nan and not quiet:
-                what = ("the effect of the level changes" if rule.name == "level changes"
-                        else rule.quantity.replace("_", " "))
-                cautions.append(f"{rule.name}: {what} could not be computed")
+                what = _NOT_COMPUTED.get(rule.quantity, rule.quantity.replace("_", " "))
+                cautions.append(f"{rule.name}: {what}")
                 seen_nan.add(rule.name)
             continue
         for level, out in ((rule.unfit, reasons), (rule.caution, cautions)):

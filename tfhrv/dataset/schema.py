@@ -82,7 +82,7 @@ _EXPONENT_TEXT = {
     "beta_wavelet": "spectral exponent beta from the wavelet log-scale diagram",
     "alpha1": "DFA exponent over 4-16 beats",
     "alpha2": "DFA exponent over 16-64 beats",
-    "alpha_long": "DFA exponent over 64 beats to a quarter of the window",
+    "alpha_long": "DFA exponent over 64 beats to a quarter of the series, at most 4096",
 }
 
 

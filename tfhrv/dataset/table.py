@@ -120,7 +120,9 @@ def window_table(tree: xr.DataTree, /, *, tiers: tuple[str, ...] = ("short", "lo
                 continue
             units = str(ds[name].attrs.get("units", "1"))
             what = str(ds[name].attrs.get("long_name", name))
-            col(name, ds[name].values, units, what + " (bias-corrected, calibrated)")
+            if "calibrated" not in what:  # the file's own long name may already say so
+                what += " (bias-corrected, calibrated)"
+            col(name, ds[name].values, units, what)
             if name + "_ci" in ds:
                 ci = np.asarray(ds[name + "_ci"].transpose("time", "bound").values, float)
                 col(name + "_lower", ci[:, 0], units,
