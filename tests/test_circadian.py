@@ -132,3 +132,26 @@ def test_circadian_group_follows_the_schema_and_is_checked(day_worker):
                     acrophase_h=ds["acrophase_h"].assign_attrs(units="deg"))
     t["/circadian"] = xr.DataTree(bad)
     assert problems(t) == ["/circadian/acrophase_h has units 'deg', expected 'h'"]
+
+
+def test_overlapping_windows_are_resampled_in_blocks_of_one_window_length(day_worker,
+                                                                        monkeypatch):
+    # Moving-block bootstrap (Kunsch 1989): blocks must span the dependence of the series.
+    # 4-h windows at a 1-h hop share beats with their three neighbours, so the long tier's
+    # blocks must hold at least four windows (1-h blocks gave one window and far too narrow
+    # intervals); the short tier's 5-min windows do not overlap and keep 1-h blocks.
+    import tfhrv.circadian.days as days
+
+    seen = {}
+    real = days.night_day_contrast
+
+    def spy(t, *args, **kwargs):
+        spacing = float(np.median(np.diff(np.sort(t)))) if len(t) > 1 else np.nan
+        seen.setdefault(round(spacing, 3), set()).add(kwargs["block_hours"])
+        return real(t, *args, **kwargs)
+
+    monkeypatch.setattr(days, "night_day_contrast", spy)
+    _, tree = day_worker
+    circadian_table(tree, options=CircadianOptions(n_boot=19))
+    assert seen[1.0] == {4.0}  # long tier: 1-h spacing, 4-h windows
+    assert seen[round(5 / 60, 3)] == {1.0}  # short tier: 5-min windows, 1-h blocks

@@ -211,9 +211,14 @@ def _variable_rows(tree: xr.DataTree, tier: str, var: str, opt: CircadianOptions
     groups = [("all", np.ones(y.size, dtype=bool))]
     if day_index.max() > 0:
         groups += [(str(d + 1), day_index == d) for d in np.unique(day_index)]
+    # overlapping windows share beats: a block must span at least one window length, so
+    # that windows holding the same data are resampled together (4-h windows at a 1-h hop:
+    # four windows, not one)
+    window_h = float(ds.attrs.get("window_s", 0.0)) / 3600.0
+    block_hours = max(opt.block_hours, window_h)
     for label, sel in groups:
         c = night_day_contrast(t_h[sel], y[sel], night[sel], day[sel],
-                               block_hours=opt.block_hours, n_boot=opt.n_boot,
+                               block_hours=block_hours, n_boot=opt.n_boot,
                                rng=opt.seed, valid=valid[sel])
         row = {
             "tier": tier, "variable": var, "day": label, "period_source": source,
@@ -369,7 +374,9 @@ def format_circadian(table: pd.DataFrame, /) -> str:
     src = pooled["period_source"].iloc[0] if len(pooled) else "n/a"
     ref = pooled["acrophase_reference"].iloc[0] if len(pooled) else "n/a"
     out = [f"day/night from: {src}; acrophase as {ref}; g = Hedges' effect size; p = "
-           "zero-amplitude test of the 24-h cosinor; unit 1 = dimensionless", line(head)]
+           "zero-amplitude test of the 24-h cosinor (ordinary least squares: windows taken "
+           "as independent, so p is too small for autocorrelated windows); unit 1 = "
+           "dimensionless", line(head)]
     out.append("-" * len(out[-1]))
     out += [line(r) for r in rows]
     return "\n".join(out)

@@ -24,7 +24,8 @@ class CircadianOptions:
     midnight when start > end; ``period`` = "auto" uses the clock when the start is known
     and the inferred rest period otherwise, "clock" insists on the clock, "inferred" always
     infers.  ``rest_hours`` is the length of the inferred rest block; ``block_hours`` the
-    bootstrap block length (about an hour, to respect autocorrelation); ``min_coverage``
+    bootstrap block length (about an hour, to respect autocorrelation; never less than the
+    tier's window length, so that overlapping windows are resampled together); ``min_coverage``
     the share of a window that must hold NN intervals for it to count.
     """
 

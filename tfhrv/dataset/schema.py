@@ -306,7 +306,9 @@ def _circadian() -> list[Variable]:
             Variable("acrophase_high" + suffix, r, "h",
                      f"upper 95 % limit of the {model} acrophase"),
             Variable("cosinor_p" + suffix, r, "1",
-                     f"p-value of the zero-amplitude F-test of the {model}"),
+                     f"p-value of the zero-amplitude F-test of the {model} (ordinary least "
+                     "squares, windows taken as independent: too small for autocorrelated "
+                     "windows)"),
         ]
     w = ("short_window",)
     for name, what in (("short_night", "night/rest"), ("short_day", "day")):

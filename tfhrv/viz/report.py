@@ -572,8 +572,10 @@ def _circadian_tables(table: pd.DataFrame | None, skipped: str = "") -> str:
     out = (f"<p>Day and night from: <strong>{src}</strong>; acrophase given as "
            f"{_e(ref)}. Difference = night − day with a moving-block bootstrap 95 % interval; "
            "g = Hedges' effect size; single-component 24-h cosinor (acrophase interval only "
-           "where the amplitude is significant). <em>exponent</em> is each window's primary "
-           "exponent in β units.</p>")
+           "where the amplitude is significant). The cosinor p-value is an ordinary "
+           "least-squares F-test that takes the windows as independent: for autocorrelated "
+           "windows it is too small, so read it as descriptive. <em>exponent</em> is each "
+           "window's primary exponent in β units.</p>")
     out += _table(["variable (tier)", "unit", "day mean", "night mean",
                    "night − day [95 % CI]", "g", "MESOR", "amplitude [95 % CI]",
                    "acrophase [95 % CI]", "cosinor p"], rows, numeric={2, 3, 4, 5, 6, 7, 8, 9})
