@@ -31,8 +31,10 @@ class FitnessThresholds:
 
     Defaults and their sources:
 
-    - ``min_cycles`` = 8 and ``caution_cycles`` = 4: periods of the lowest fitted
-      frequency that the record spans.  The Task Force 1996 asks for about 10 periods of
+    - ``min_cycles`` = 8 and ``caution_cycles`` = 4: periods of the classical band's
+      lower edge (1e-4 Hz) that the record spans (the slope itself is fitted from
+      max(1e-4 Hz, 10 / duration), so that the record always spans 10 periods of the
+      lowest frequency that enters the fit).  The Task Force 1996 asks for about 10 periods of
       a band's lower limit (from memory); the classical 1e-4 Hz band of a 24-h record has
       8.6, and 24 h is the accepted length for it (common practice), so 8 is the fit
       limit; 4-8 is a caution and below 4 unfit.
@@ -140,8 +142,8 @@ class Rule:
 #: The whole-record FFT-slope verdict, one rule per check (see docs/METHODS.md section 12).
 RULES: tuple[Rule, ...] = (
     Rule("duration", "cycles", "min_cycles", "caution_cycles", "low",
-         "duration: the record ({length}) spans {cycles:.1f} periods of the lowest fitted "
-         "frequency {low_hz:g} Hz (need >= {limit:g}; {min_cycles:g} periods take "
+         "duration: the record ({length}) spans {cycles:.1f} periods of {low_hz:g} Hz, the "
+         "lower edge of the classical band (need >= {limit:g}; {min_cycles:g} periods take "
          "{need_h:.1f} h)",
          "Task Force 1996 (about 10 periods of a band's lower limit, from memory); 24 h "
          "is the accepted length (common practice)"),

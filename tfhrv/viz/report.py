@@ -402,7 +402,8 @@ def _pvalue(v: float) -> str:
 
 #: check of the verdict -> (label, formatter of a finite value)
 _CHECKS = {
-    "cycles_of_lowest_frequency": ("periods of the lowest fitted frequency in the record",
+    "cycles_of_lowest_frequency": ("periods of the classical band's lower edge (1e-4 Hz) "
+                                   "in the record",
                                    lambda v: f"{v:.1f}"),
     "coverage": ("analysable share of the record", lambda v: f"{100 * v:.1f} %"),
     "longest_gap_s": ("longest unreadable stretch",
