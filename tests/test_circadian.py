@@ -155,3 +155,19 @@ def test_overlapping_windows_are_resampled_in_blocks_of_one_window_length(day_wo
     circadian_table(tree, options=CircadianOptions(n_boot=19))
     assert seen[1.0] == {4.0}  # long tier: 1-h spacing, 4-h windows
     assert seen[round(5 / 60, 3)] == {1.0}  # short tier: 5-min windows, 1-h blocks
+
+
+def test_few_overlapping_windows_give_no_interval_only_a_descriptive_difference(day_worker):
+    # n windows of length W at hop h hold about n h / W independent ones; one 24-h record has
+    # a night of six 4-h windows at a 1-h hop (about 1.5 independent), from which a moving-
+    # block bootstrap (Kunsch 1989) of one or two blocks cannot show the spread, and Hedges'
+    # g of nearly identical overlapping values is meaningless. The 5-min tier keeps both.
+    _, tree = day_worker
+    table = circadian_table(tree, options=CircadianOptions(n_boot=99))
+    long = _row(table, "alpha_long", tier="long")
+    assert np.isfinite(long.difference)
+    assert np.isnan(long.difference_low) and np.isnan(long.effect_size)
+    assert "independent" in long.contrast_note
+    short = _row(table, "alpha1")
+    assert np.isfinite(short.difference_low) and np.isfinite(short.effect_size)
+    assert "note: alpha_long (long)" in format_circadian(table)

@@ -198,6 +198,12 @@ def circadian_table(tree: xr.DataTree, /, *, options: CircadianOptions | None = 
     return pd.DataFrame(rows)
 
 
+#: Fewest independent windows (n x hop / window) in each period for a contrast interval and
+#: effect size on a tier of overlapping windows: fewer give a moving-block bootstrap of one
+#: or two blocks, which cannot show the spread (our choice).
+_MIN_INDEPENDENT = 3
+
+
 def _variable_rows(tree: xr.DataTree, tier: str, var: str, opt: CircadianOptions,
                    sleep_log: list | None) -> list[dict]:
     """The pooled and per-day rows of :func:`circadian_table` for one variable."""
@@ -216,6 +222,7 @@ def _variable_rows(tree: xr.DataTree, tier: str, var: str, opt: CircadianOptions
     # four windows, not one)
     window_h = float(ds.attrs.get("window_s", 0.0)) / 3600.0
     block_hours = max(opt.block_hours, window_h)
+    overlap = window_h / (float(ds.attrs.get("hop_s", 0.0)) / 3600.0 or np.inf)
     for label, sel in groups:
         c = night_day_contrast(t_h[sel], y[sel], night[sel], day[sel],
                                block_hours=block_hours, n_boot=opt.n_boot,
@@ -228,6 +235,15 @@ def _variable_rows(tree: xr.DataTree, tier: str, var: str, opt: CircadianOptions
             "n_day": c.n_day, "n_night": c.n_night, "n_excluded": c.n_excluded,
             "contrast_note": c.reason or "",
         }
+        independent = min(c.n_night, c.n_day) / max(overlap, 1.0)
+        if not c.reason and independent < _MIN_INDEPENDENT:
+            # overlapping windows: n windows hold only about n hop / window independent ones
+            row.update(difference_low=np.nan, difference_high=np.nan, effect_size=np.nan,
+                       contrast_note=(
+                           f"no interval or effect size: {min(c.n_night, c.n_day)} "
+                           f"overlapping {window_h:g}-h windows in the shorter period are "
+                           f"about {independent:.1f} independent ones (fewer than "
+                           f"{_MIN_INDEPENDENT}); the difference is descriptive"))
         if label == "all":
             row.update(_cosinor_columns(tcos[valid], y[valid], ref))
         rows.append(row)
@@ -379,4 +395,10 @@ def format_circadian(table: pd.DataFrame, /) -> str:
            "dimensionless", line(head)]
     out.append("-" * len(out[-1]))
     out += [line(r) for r in rows]
+    notes = {}  # one line per distinct note, naming its variables
+    for _, r in pooled.iterrows():
+        note = str(r.get("contrast_note", "") or "")
+        if note and note != "nan":
+            notes.setdefault(note, []).append(f"{r['variable']} ({r['tier']})")
+    out += [f"note: {', '.join(names)}: {note}" for note, names in notes.items()]
     return "\n".join(out)
