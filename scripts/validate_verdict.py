@@ -132,7 +132,7 @@ def open_records(folder: str) -> list[str]:
     with open(manifest, encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
     out = ["", "## The open records", "",
-           "| record | verdict | level effect [95 %] | drifting 4-h windows | FFT beta "
+           "| record | verdict | level effect [95 %] | non-stationary 4-h windows | FFT beta "
            "(calibrated 95 %; through the day 95 %) | wavelet beta | reasons and cautions |",
            "|---|---|---|---|---|---|---|"]
     for row in rows:
@@ -145,7 +145,7 @@ def open_records(folder: str) -> list[str]:
         e = a.effect
         eff = f"{e.effect:+.2f} [{e.ci[0]:+.2f}, {e.ci[1]:+.2f}]" if e is not None else "n/a"
         f, b = a.fits["beta_spectral"], a.block.get("beta_spectral")
-        fb = "n/a" if f is None else (
+        fb = "n/a" if f is None else f"withheld ({f.withheld.split(':')[0]})" if f.withheld else (
             f"{f.exponent:.2f} ({interval_text(*f.ci).strip('[]').replace(', ', '-')}; "
             + (f"{b.ci[0]:.2f}-{b.ci[1]:.2f})" if b is not None else "n/a)"))
         w = a.fits["beta_wavelet"]
