@@ -236,7 +236,7 @@ def _variable_rows(tree: xr.DataTree, tier: str, var: str, opt: CircadianOptions
             "contrast_note": c.reason or "",
         }
         independent = min(c.n_night, c.n_day) / max(overlap, 1.0)
-        if not c.reason and independent < _MIN_INDEPENDENT:
+        if overlap > 1.0 and not c.reason and independent < _MIN_INDEPENDENT:
             # overlapping windows: n windows hold only about n hop / window independent ones
             row.update(difference_low=np.nan, difference_high=np.nan, effect_size=np.nan,
                        contrast_note=(
