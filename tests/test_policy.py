@@ -76,6 +76,10 @@ def test_cautions_and_missing_values():
     assert any(c.startswith("agreement: the FFT and wavelet betas could not be compared")
                for c in v2.cautions), v2.cautions
     assert not any("_" in c.split(":")[1] for c in v2.cautions)  # no internal names
+    # a record without one analysable 4-h window: the stationarity caution says so in words
+    v3 = fitness_verdict(**{**GOOD, "nonstationary_share": float("nan")})
+    assert any(c.startswith("stationarity: the share of non-stationary 4-h windows could not "
+                            "be computed") for c in v3.cautions), v3.cautions
 
 
 def test_motion_class_recommends_dfa():

@@ -207,6 +207,8 @@ _NOT_COMPUTED = {
     "excess_scatter": "the scatter of the FFT slope's points could not be computed",
     "curvature_pvalue": "the curvature test of the FFT slope could not be computed",
     "beta_wavelet": "the wavelet beta could not be computed",
+    "nonstationary_share": ("the share of non-stationary 4-h windows could not be computed "
+                            "(no analysable 4-h window)"),
 }
 
 _Z95 = 1.959963984540054
@@ -340,7 +342,8 @@ def fitness_verdict(
             quiet = rule.name in ("level changes", "agreement") and not (
                 nonstationary_share > th.caution_nonstationary or rule.name == "agreement")
             if rule.name not in seen_nan and not quiet:
-                what = _NOT_COMPUTED.get(rule.quantity, rule.quantity.replace("_", " "))
+                what = _NOT_COMPUTED.get(
+                    rule.quantity, f"{rule.quantity.replace('_', ' ')} could not be computed")
                 cautions.append(f"{rule.name}: {what}")
                 seen_nan.add(rule.name)
             continue
